@@ -1,0 +1,143 @@
+"""The ``particles`` command: second-phase particles of one or more fields.
+
+Writes DIR/particles.json (schema ``sectio/particles@1``), DIR/particles.csv (one row per
+particle), DIR/<field>_overlay.png per field and DIR/size_distribution.png. numpy,
+scikit-image and matplotlib are imported inside the command body.
+"""
+
+from __future__ import annotations
+
+import os
+import warnings
+from pathlib import Path
+
+import click
+
+from ..errors import CalibrationError, InputError, OptionError
+
+CSV_COLUMNS = ["image", "particle", "area_um2", "ecd_um", "feret_max_um", "feret_min_um",
+               "aspect_ratio", "centroid_x_um", "centroid_y_um", "cut_by_edge", "weight"]
+
+
+def _overlay_name(path: str, used: set[str]) -> str:
+    stem = Path(path).stem or "field"
+    name, i = f"{stem}_overlay.png", 2
+    while name in used:
+        name, i = f"{stem}_{i}_overlay.png", i + 1
+    used.add(name)
+    return name
+
+
+def _fmt(v, spec):
+    return "-" if v is None else format(v, spec)
+
+
+@click.command("particles", context_settings={"help_option_names": ["-h", "--help"]})
+@click.argument("images", nargs=-1, required=True, type=click.Path(dir_okay=True))
+@click.option("--pixel-size", default=None, help="Pixel size with a unit, e.g. 0.02um or 20nm.")
+@click.option("--scale-bar", default=None,
+              help="Length of the scale bar in the info strip, e.g. 2um; the bar is measured.")
+@click.option("--crop-bottom", type=int, default=0, show_default=True,
+              help="Rows of an info strip to drop from the bottom.")
+@click.option("--phase", type=click.Choice(["bright", "dark"]), default="bright",
+              show_default=True, help="Particles brighter or darker than the matrix.")
+@click.option("--threshold", type=float, default=None,
+              help="Manual threshold, 0-1 of the flattened image (default: automatic).")
+@click.option("--min-size", default=None,
+              help="Smallest particle kept, as an equivalent circle diameter, e.g. 0.05um "
+                   "(default 3 pixels).")
+@click.option("--no-split", is_flag=True, help="Do not split touching particles.")
+@click.option("--foil-thickness", default=None,
+              help="Thin-foil thickness for projected (TEM) images, e.g. 80nm.")
+@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False),
+              help="Folder for particles.json, particles.csv and the pictures.")
+@click.option("--seed", type=int, default=0, show_default=True,
+              help="Seed of the point-count grid offset and the bootstrap.")
+@click.pass_context
+def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, threshold,
+                      min_size, no_split, foil_thickness, out_dir, seed):
+    """Particle area (= volume) fraction, sizes, spacing and sphere-size unfolding.
+
+    Example:  sectio particles field*.tif --pixel-size 0.02um --phase bright --out results
+    """
+    from ..micrograph import load
+    from ..particles import SCHEMA, measure_particles, summarize_particles
+    from ..report._io import write_csv, write_json
+    from ..report.particles import write_overlay_png, write_size_distribution_png
+    from ..units import parse_length_um
+
+    if threshold is not None and not 0.0 < threshold < 1.0:
+        raise OptionError(f"--threshold {threshold!r} is outside (0, 1); give a grey level of "
+                          "the flattened image between 0 and 1, or leave it out.")
+    min_size_um = parse_length_um(min_size, what="--min-size") if min_size else None
+    foil_um = parse_length_um(foil_thickness, what="--foil-thickness") if foil_thickness \
+        else None
+    out = Path(out_dir)
+    options = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
+               "phase": phase, "threshold": threshold, "min_size_um": min_size_um,
+               "split": not no_split, "foil_thickness_um": foil_um, "seed": seed}
+    fields, dicts, failed, rows, used = [], [], [], [], set()
+    calibration_failures = 0
+    for path in images:
+        try:
+            mg = load(path, pixel_size=pixel_size, crop_bottom=crop_bottom, scale_bar=scale_bar)
+            f = measure_particles(mg, phase=phase, threshold=threshold, min_size_um=min_size_um,
+                                  split=not no_split, foil_thickness_um=foil_um, seed=seed)
+        except OptionError:
+            raise  # a usage error: the same for every field
+        except InputError as exc:
+            failed.append({"image": os.fspath(path), "reason": str(exc)})
+            calibration_failures += isinstance(exc, CalibrationError) and scale_bar is None
+            click.echo(f"{path}: skipped: {exc}", err=True)
+            continue
+        overlay = _overlay_name(path, used)
+        write_overlay_png(out / overlay, f)
+        fields.append(f)
+        dicts.append({**f.to_dict(), "overlay_png": overlay})
+        rows.extend({"image": os.fspath(path), **r} for r in f.table.rows(mg.pixel_size_um))
+    if not fields and calibration_failures == len(images) and pixel_size is None:
+        raise CalibrationError(
+            "None of the images carries a pixel size; give --pixel-size (e.g. 0.02um) or "
+            "--scale-bar with the bar's length."
+        )
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # single-field degeneracy is reported in "basis"
+        summary = summarize_particles(fields, seed=seed)
+    doc = {"schema": SCHEMA, "options": {**options, **(fields[0].options if fields else {})},
+           "fields": dicts, "summary": summary, "failed": failed}
+    write_csv(out / "particles.csv", rows, columns=CSV_COLUMNS)
+    if fields:
+        write_size_distribution_png(out / "size_distribution.png", fields, summary)
+        doc["size_distribution_png"] = "size_distribution.png"
+    write_json(out / "particles.json", doc)
+    _print_table(fields, summary, failed)
+    if failed:
+        ctx.exit(1)
+    return 0
+
+
+def _print_table(fields, summary, failed) -> None:
+    click.echo(f"{'field':<28} {'A_A %':>7} {'P_P %':>7} {'N':>6} {'N_A /um2':>9} "
+               f"{'ECD um':>8} {'lambda um':>9}  flags")
+    for f in fields:
+        flag = "; ".join(f.flags)
+        click.echo(f"{f.micrograph.name[:28]:<28} {100 * f.area_fraction:7.2f} "
+                   f"{100 * f.point_fraction:7.2f} {f.particles_counted:6d} "
+                   f"{f.particles_per_um2:9.4g} {_fmt(f.mean_ecd_um, '8.4g')} "
+                   f"{_fmt(f.mean_free_path_um, '9.4g')}  {flag}")
+    for fl in failed:
+        click.echo(f"{Path(fl['image']).name[:28]:<28} failed: {fl['reason']}")
+    if fields:
+        ci = summary.get("area_fraction_ci95") or [None, None]
+        ci_txt = (f"[{100 * ci[0]:.2f}, {100 * ci[1]:.2f}] %" if ci[0] is not None
+                  else "no CI")
+        msd = summary.get("mean_sphere_diameter_um")
+        click.echo(
+            f"summary ({summary['n_fields']} field(s), {summary['basis']}): A_A "
+            f"{100 * summary['area_fraction']:.2f} %, 95 % CI {ci_txt}; mean ECD "
+            f"{_fmt(summary.get('mean_ecd_um'), '.4g')} um; N_A "
+            f"{_fmt(summary.get('particles_per_um2'), '.4g')} /um2; mean sphere diameter "
+            f"{_fmt(msd, '.4g')} um"
+        )
+        if summary["flags"]:
+            click.echo(f"flagged: {len(summary['flags'])} field(s) — see 'flags' in the JSON")

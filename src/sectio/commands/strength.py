@@ -1,0 +1,450 @@
+"""The ``strength``, ``fit-hall-petch`` and ``materials`` commands (thin: parse, call, write).
+
+numpy, scipy and matplotlib are imported inside the command bodies so that ``sectio --help``
+stays fast.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import tempfile
+from pathlib import Path
+
+import click
+
+from ..errors import InputError, OptionError
+from ..units import parse_stress_mpa
+
+OROWAN_CHOICES = ("line_tension", "classic", "ashby_orowan", "ashby_orowan_gladman")
+SPACING_CHOICES = (
+    "planar_edge",
+    "planar_centre",
+    "spheres_edge_rms",
+    "spheres_edge_mean",
+    "spheres_centre",
+)
+CONVENTION_CHOICES = (
+    "mean_lineal_intercept",
+    "sphere_diameter",
+    "mendelson_diameter",
+    "truncated_octahedron_diameter",
+    "section_ecd_hexagons",
+    "astm_sqrt_mean_area",
+)
+
+
+class ResultFileError(InputError, ValueError):
+    """A grains/particles JSON or a data CSV cannot be used; the message names the file."""
+
+
+def _write_atomic(path: Path, data: bytes) -> None:
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def dump_json(doc: dict) -> bytes:
+    """Deterministic JSON bytes (sorted keys, full float precision)."""
+    return (
+        json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    ).encode("utf-8")
+
+
+def _read_summary(path: str, schema: str) -> dict:
+    p = Path(path)
+    try:
+        doc = json.loads(p.read_text(encoding="utf-8"))
+    except OSError as exc:
+        raise ResultFileError(f"Cannot read {path!r} ({exc.strerror}); check the path.") from None
+    except json.JSONDecodeError as exc:
+        raise ResultFileError(
+            f"{path!r} is not valid JSON (line {exc.lineno}); re-create it with sectio."
+        ) from None
+    if not isinstance(doc, dict) or doc.get("schema") != schema:
+        found = doc.get("schema") if isinstance(doc, dict) else None
+        raise ResultFileError(
+            f"{path!r} has schema {found!r}, expected {schema!r}; pass the "
+            "file sectio wrote for this measurement."
+        )
+    if not isinstance(doc.get("summary"), dict):
+        raise ResultFileError(f"{path!r} has no 'summary' object; re-run the measurement.")
+    return doc["summary"]
+
+
+def parse_value_sd(text: str | None, *, what: str, stress: bool = True):
+    """``'50'``, ``'50MPa'``, ``'50+-10'`` or ``'50±10 ksi'`` -> (value, sd) or None.
+
+    Stresses go through :func:`sectio.units.parse_stress_mpa` (a bare number is MPa); a unit
+    written after the sd applies to the value too.
+    """
+    if text is None:
+        return None
+    parts = [p.strip() for p in str(text).replace("±", "+-").split("+-")]
+    if len(parts) > 2 or not all(parts):
+        raise OptionError(f"Cannot read {what} {text!r}; write VALUE or VALUE+-SD, e.g. 50+-10.")
+    if stress:
+        unit = re.sub(r"^[\s\d.eE+-]+", "", parts[-1])
+        if unit and not re.sub(r"^[\s\d.eE+-]+", "", parts[0]):
+            parts[0] += unit
+        values = [parse_stress_mpa(p, what=what) for p in parts]
+    else:
+        try:
+            values = [float(p) for p in parts]
+        except ValueError:
+            raise OptionError(
+                f"Cannot read {what} {text!r}; write a number or VALUE+-SD, e.g. 1e14+-2e13."
+            ) from None
+    if len(values) == 2 and values[1] < 0:
+        raise OptionError(f"The uncertainty in {what} {text!r} must not be negative.")
+    return (values[0], values[1] if len(values) == 2 else 0.0)
+
+
+@click.command("strength")
+@click.option(
+    "--grains",
+    "grains_path",
+    required=True,
+    type=click.Path(dir_okay=False),
+    help="grains.json of the specimen (mean lineal intercept and its CI).",
+)
+@click.option(
+    "--particles",
+    "particles_path",
+    type=click.Path(dir_okay=False),
+    help="particles.json of the specimen (adds the Orowan term).",
+)
+@click.option("--material", required=True, help="Material name (see `sectio materials`).")
+@click.option(
+    "--materials",
+    "materials_file",
+    type=click.Path(dir_okay=False),
+    help="TOML file adding or replacing material entries.",
+)
+@click.option(
+    "--out",
+    "out_dir",
+    required=True,
+    type=click.Path(file_okay=False),
+    help="Directory for strength.json.",
+)
+@click.option("--seed", default=0, show_default=True, type=int, help="Monte Carlo seed.")
+@click.option("--draws", default=20000, show_default=True, type=int, help="Monte Carlo draws.")
+@click.option(
+    "--units",
+    type=click.Choice(["mpa", "ksi"]),
+    default="mpa",
+    show_default=True,
+    help="Units of the printed summary (the JSON is always MPa).",
+)
+@click.option(
+    "--orowan-form",
+    type=click.Choice(OROWAN_CHOICES),
+    default="line_tension",
+    show_default=True,
+    help="Orowan bypass formula.",
+)
+@click.option(
+    "--spacing",
+    type=click.Choice(SPACING_CHOICES),
+    help="Particle spacing formula [default: planar_edge if particles_per_um2 is "
+    "measured, else spheres_edge_rms].",
+)
+@click.option(
+    "--superposition",
+    type=click.Choice(["linear", "rss", "power"]),
+    default="linear",
+    show_default=True,
+    help="How obstacle terms combine.",
+)
+@click.option("--exponent", type=float, help="q of the power superposition (1 to 2).")
+@click.option(
+    "--scope",
+    type=click.Choice(["obstacles", "all_strengthening"]),
+    default="obstacles",
+    show_default=True,
+    help="Terms the superposition rule combines (the rest add linearly).",
+)
+@click.option(
+    "--grain-size-convention",
+    type=click.Choice(CONVENTION_CHOICES),
+    help="Express d (and k) in this convention [default: the material's].",
+)
+@click.option("--friction", help="Lattice friction stress, VALUE[+-SD] (replaces σ0).")
+@click.option("--solid-solution", help="Solid-solution stress, VALUE[+-SD] (with --friction).")
+@click.option("--dislocation-density", help="Dislocation density in m^-2, VALUE[+-SD].")
+@click.option(
+    "--taylor-alpha",
+    default=0.3,
+    show_default=True,
+    type=float,
+    help="α of the Taylor dislocation term.",
+)
+@click.option(
+    "--shearing-size",
+    type=float,
+    help="Particle diameter (nm) below which particles are flagged as shearable.",
+)
+@click.option(
+    "--allow-nanocrystalline",
+    is_flag=True,
+    help="Compute even below 0.1 µm, where Hall–Petch breaks down.",
+)
+def strength_command(
+    grains_path,
+    particles_path,
+    material,
+    materials_file,
+    out_dir,
+    seed,
+    draws,
+    units,
+    orowan_form,
+    spacing,
+    superposition,
+    exponent,
+    scope,
+    grain_size_convention,
+    friction,
+    solid_solution,
+    dislocation_density,
+    taylor_alpha,
+    shearing_size,
+    allow_nanocrystalline,
+):
+    """Estimate yield strength from grains.json (and particles.json) with a 95 % interval."""
+    from ..strength import estimate_from_summaries
+    from ..strength.summary import format_summary
+
+    grains = _read_summary(grains_path, "sectio/grains@1")
+    particles = _read_summary(particles_path, "sectio/particles@1") if particles_path else None
+    est = estimate_from_summaries(
+        grains,
+        particles,
+        material=material,
+        materials_file=materials_file,
+        seed=seed,
+        draws=draws,
+        orowan_form=orowan_form,
+        spacing=spacing,
+        superposition=superposition,
+        exponent=exponent,
+        scope=scope,
+        grain_size_convention=grain_size_convention,
+        friction_mpa=parse_value_sd(friction, what="--friction"),
+        solid_solution_mpa=parse_value_sd(solid_solution, what="--solid-solution"),
+        dislocation_density_per_m2=parse_value_sd(
+            dislocation_density, what="--dislocation-density", stress=False
+        ),
+        taylor_alpha=taylor_alpha,
+        shearing_diameter_nm=shearing_size,
+        allow_nanocrystalline=allow_nanocrystalline,
+    )
+    doc = est.to_dict()
+    doc["inputs"]["files"] = {
+        "grains": str(grains_path),
+        "particles": particles_path,
+        "materials": materials_file,
+    }
+    out = Path(out_dir) / "strength.json"
+    _write_atomic(out, dump_json(doc))
+    click.echo(format_summary(doc, units))
+    click.echo(f"wrote {out}")
+
+
+def _read_fit_csv(path: str):
+    import csv
+
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8-sig")
+    except OSError as exc:
+        raise ResultFileError(f"Cannot read {path!r} ({exc.strerror}); check the path.") from None
+    rows = list(csv.DictReader(text.splitlines()))
+    header = set(rows[0]) if rows else set()
+    if "yield_mpa" not in header or not ({"grain_size_um", "grains_json"} & header):
+        raise ResultFileError(
+            f"{path!r} needs a header with grain_size_um (or grains_json) and "
+            "yield_mpa columns, one row per specimen."
+        )
+    cols: dict[str, list] = {"d": [], "y": [], "d_sd": [], "y_sd": []}
+    for line, row in enumerate(rows, start=2):
+        try:
+            if row.get("grain_size_um", "").strip():
+                d = float(row["grain_size_um"])
+                d_sd = (
+                    float(row["grain_size_sd_um"])
+                    if (row.get("grain_size_sd_um") or "").strip()
+                    else None
+                )
+            else:
+                summary = _read_summary(
+                    str(p.parent / row["grains_json"].strip()), "sectio/grains@1"
+                )
+                from ..strength import grain_intercept_um
+
+                mv = grain_intercept_um(summary)
+                d, d_sd = mv.value, mv.se
+            y = float(row["yield_mpa"])
+            y_sd = float(row["yield_sd_mpa"]) if (row.get("yield_sd_mpa") or "").strip() else None
+        except (TypeError, ValueError, AttributeError):
+            raise ResultFileError(
+                f"{path!r} line {line}: a value is missing or not a number; fix the row."
+            ) from None
+        for key, value in (("d", d), ("y", y), ("d_sd", d_sd), ("y_sd", y_sd)):
+            cols[key].append(value)
+    d_sd = cols["d_sd"] if all(v is not None for v in cols["d_sd"]) else None
+    y_sd = cols["y_sd"] if all(v is not None for v in cols["y_sd"]) else None
+    return cols["d"], cols["y"], d_sd, y_sd
+
+
+@click.command("fit-hall-petch")
+@click.argument("data_csv", type=click.Path(dir_okay=False))
+@click.option(
+    "--out",
+    "out_dir",
+    required=True,
+    type=click.Path(file_okay=False),
+    help="Directory for hall_petch_fit.json, the plot and the material entry.",
+)
+@click.option(
+    "--errors-in-variables",
+    is_flag=True,
+    help="Use the grain_size_sd_um column (York / orthogonal-distance fit).",
+)
+@click.option(
+    "--grain-size-convention",
+    type=click.Choice(CONVENTION_CHOICES),
+    default="mean_lineal_intercept",
+    show_default=True,
+    help="What the grain sizes in the CSV are.",
+)
+@click.option(
+    "--name",
+    default="fitted-hall-petch",
+    show_default=True,
+    help="Name of the saved material entry.",
+)
+@click.option(
+    "--base",
+    help="Material whose other constants (G, b, ν, M) the entry inherits; "
+    "needed to save the entry.",
+)
+@click.option(
+    "--materials",
+    "materials_file",
+    type=click.Path(dir_okay=False),
+    help="TOML file with extra materials (for --base).",
+)
+def fit_hall_petch_command(
+    data_csv, out_dir, errors_in_variables, grain_size_convention, name, base, materials_file
+):
+    """Fit Hall–Petch σ0 and k to DATA.csv (grain_size_um, yield_mpa per specimen)."""
+    from ..strength import fit_hall_petch, get_material, material_toml
+    from ..strength.plot import hall_petch_figure
+
+    d, y, d_sd, y_sd = _read_fit_csv(data_csv)
+    fit = fit_hall_petch(
+        d,
+        y,
+        grain_size_sd_um=d_sd,
+        yield_sd_mpa=y_sd,
+        method="york" if errors_in_variables else "ols",
+        grain_size_convention=grain_size_convention,
+    )
+    out = Path(out_dir)
+    doc = fit.to_dict()
+    doc["data_file"] = str(data_csv)
+    doc["material_entry"] = None
+    if base:
+        get_material(base, materials_file)  # fail early on an unknown base
+        source = (
+            f"fitted by sectio fit-hall-petch to {Path(data_csv).name} (n = {fit.n}, {fit.method})"
+        )
+        entry = material_toml(
+            name,
+            {
+                "description": f"Hall–Petch constants fitted to {Path(data_csv).name}",
+                "grain_size_convention": grain_size_convention,
+                "sigma0_mpa": {"value": fit.sigma0_mpa, "sd": fit.sigma0_se_mpa, "source": source},
+                "k_mpa_sqrt_m": {
+                    "value": fit.k_mpa_sqrt_m,
+                    "sd": fit.k_se_mpa_sqrt_m,
+                    "source": source,
+                },
+                "grain_size_range_um": {
+                    "value": [min(fit.grain_size_um), max(fit.grain_size_um)],
+                    "source": "range of the fitted specimens",
+                },
+            },
+            base=base,
+        )
+        _write_atomic(out / "hall_petch_material.toml", entry.encode("utf-8"))
+        doc["material_entry"] = {"file": "hall_petch_material.toml", "name": name, "base": base}
+    fig = hall_petch_figure(fit)
+    out.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=out, suffix=".png")
+    os.close(fd)
+    fig.savefig(tmp, format="png", metadata={"Software": None})
+    os.replace(tmp, out / "hall_petch_fit.png")
+    _write_atomic(out / "hall_petch_fit.json", dump_json(doc))
+    lo_s, hi_s = fit.sigma0_ci95_mpa
+    lo_k, hi_k = fit.k_ci95_mpa_sqrt_m
+    click.echo(
+        f"Hall–Petch fit ({fit.method}, n = {fit.n}, d = {grain_size_convention}):\n"
+        f"  σ0 = {fit.sigma0_mpa:.1f} MPa (95 % CI {lo_s:.1f} to {hi_s:.1f})\n"
+        f"  k  = {fit.k_mpa_sqrt_m:.4f} MPa·m^½ (95 % CI {lo_k:.4f} to {hi_k:.4f})\n"
+        f"  R² = {fit.r_squared:.4f}, residual sd {fit.residual_sd_mpa:.1f} MPa"
+    )
+    if not base:
+        click.echo("  (give --base MATERIAL to save the constants as a material entry)")
+    click.echo(f"  CAUTION: {doc['caution']}")
+    click.echo(f"wrote {out / 'hall_petch_fit.json'} and {out / 'hall_petch_fit.png'}")
+
+
+@click.command("materials")
+@click.option(
+    "--materials",
+    "materials_file",
+    type=click.Path(dir_okay=False),
+    help="TOML file adding or replacing material entries.",
+)
+@click.option("--sources", is_flag=True, help="Also print the source of every value.")
+def materials_command(materials_file, sources):
+    """List the materials the strength models know, with their constants."""
+    from ..strength import load_materials
+
+    for name, m in load_materials(materials_file).items():
+        lo, hi = m.grain_size_range_um
+        click.echo(
+            f"{name}  ({m.origin}) {m.description}\n"
+            f"    G {m.shear_modulus_gpa.value:g} GPa, b {m.burgers_nm.value:g} nm, "
+            f"ν {m.poisson_ratio.value:g}, M {m.taylor_factor.value:g}; "
+            f"σ0 {m.sigma0_mpa.value:g} ± {m.sigma0_mpa.sd:g} MPa, "
+            f"k {m.k_mpa_sqrt_m.value:g} ± {m.k_mpa_sqrt_m.sd:g} MPa·m^½ "
+            f"(d = {m.grain_size_convention}, {lo:g}–{hi:g} µm)"
+        )
+        if sources:
+            for key in (
+                "shear_modulus_gpa",
+                "burgers_nm",
+                "poisson_ratio",
+                "taylor_factor",
+                "sigma0_mpa",
+                "k_mpa_sqrt_m",
+            ):
+                click.echo(f"      {key}: {getattr(m, key).source}")
+            click.echo(f"      grain_size_range_um: {m.grain_size_range_source}")
+    click.echo(
+        "Values marked 'from memory' were recalled, not looked up; verify them. Predictions "
+        "made with these constants are estimates, not a substitute for tensile testing "
+        "(ASTM E8/E8M, ISO 6892-1) nor design allowables."
+    )

@@ -1,0 +1,1 @@
+"""Segmentation: micrograph -> grain label map, or particle mask and labels."""

@@ -1,0 +1,9 @@
+"""Synthetic micrographs with exact ground truth (grain structures, particle dispersions).
+
+Every generator takes ``rng`` (seed or Generator) and returns the rendered image together
+with the exact truth (label map or mask, and the 3-D population where there is one).
+"""
+
+from __future__ import annotations
+
+__all__ = ["grains", "particles"]

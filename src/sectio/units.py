@@ -1,0 +1,88 @@
+"""Physical quantities typed by people, converted once at the edge.
+
+``parse_length_um("0.5um")`` -> 0.5; accepts m, mm, um/µm/μm/micron, nm, in (inch).
+``parse_stress_mpa("45 ksi")`` -> 310.26...; accepts Pa, kPa, MPa, GPa, psi, ksi.
+"""
+
+from __future__ import annotations
+
+import re
+
+from .errors import OptionError
+
+_LENGTH_TO_UM = {
+    "m": 1e6,
+    "mm": 1e3,
+    "um": 1.0,
+    "µm": 1.0,  # micro sign U+00B5
+    "μm": 1.0,  # Greek mu U+03BC
+    "micron": 1.0,
+    "microns": 1.0,
+    "nm": 1e-3,
+    "pm": 1e-6,
+    "in": 25400.0,
+    "inch": 25400.0,
+}
+
+# 1 psi = 6894.757 Pa (NIST SP 811, from memory); ksi = 1000 psi.
+_STRESS_TO_MPA = {
+    "pa": 1e-6,
+    "kpa": 1e-3,
+    "mpa": 1.0,
+    "gpa": 1e3,
+    "psi": 6.894757e-3,
+    "ksi": 6.894757,
+}
+
+_NUMBER_UNIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\d\s].*?)?\s*$")
+
+
+def _split(text: str, what: str, example: str) -> tuple[float, str | None]:
+    m = _NUMBER_UNIT.match(str(text))
+    if not m:
+        raise OptionError(
+            f"Cannot read {what} {text!r}; give a number with a unit, e.g. {example}."
+        )
+    return float(m.group(1)), (m.group(2) or None)
+
+
+def parse_length_um(
+    text: str | float, *, what: str = "length", default_unit: str | None = None
+) -> float:
+    """Length in micrometres from text such as ``'0.5um'``, ``'500 nm'``, ``'0.0005mm'``."""
+    if isinstance(text, (int, float)):
+        value, unit = float(text), default_unit
+    else:
+        value, unit = _split(text, what, "0.5um or 500nm")
+        unit = unit or default_unit
+    if unit is None:
+        raise OptionError(f"The {what} {text!r} has no unit; add one, e.g. {text}um or {text}nm.")
+    key = unit.strip()
+    factor = _LENGTH_TO_UM.get(key) or _LENGTH_TO_UM.get(key.lower())
+    if factor is None:
+        raise OptionError(
+            f"Unknown length unit {unit!r} in {what} {text!r}; use nm, um (or µm), mm or m."
+        )
+    if not value > 0:
+        raise OptionError(f"The {what} must be positive, got {text!r}.")
+    return value * factor
+
+
+def parse_stress_mpa(text: str | float, *, what: str = "stress") -> float:
+    """Stress in MPa from text such as ``'310 MPa'``, ``'45 ksi'``; a bare number is MPa."""
+    if isinstance(text, (int, float)):
+        return float(text)
+    value, unit = _split(text, what, "310MPa or 45ksi")
+    if unit is None:
+        return value
+    factor = _STRESS_TO_MPA.get(unit.strip().lower())
+    if factor is None:
+        raise OptionError(
+            f"Unknown stress unit {unit!r} in {what} {text!r}; use MPa, GPa, psi or ksi."
+        )
+    return value * factor
+
+
+def mpa_to_ksi(value_mpa: float) -> float:
+    """MPa to ksi (1 ksi = 6.894757 MPa)."""
+    return value_mpa / _STRESS_TO_MPA["ksi"]
