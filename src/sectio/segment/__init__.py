@@ -1,1 +1,12 @@
 """Segmentation: micrograph -> grain label map, or particle mask and labels."""
+
+from .grains import GrainSegmentation, GrainSegmentOptions, segment_grains
+from .particles import ParticleSegmentation, segment_particles
+
+__all__ = [
+    "GrainSegmentOptions",
+    "GrainSegmentation",
+    "ParticleSegmentation",
+    "segment_grains",
+    "segment_particles",
+]

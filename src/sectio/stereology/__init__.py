@@ -1,4 +1,11 @@
-"""Stereology: pure functions of label maps, masks and numbers (no file or terminal I/O)."""
+"""Stereology: pure functions of label maps, masks and numbers (no file or terminal I/O).
+
+Grain size (ASTM E112 / E1382, ISO 643): mean lineal intercept by straight and circular
+test lines, planimetric (Jeffries) count, grain size numbers. Particles (ASTM E562 /
+E1245): area and point fractions, sizes, Feret diameters, Miles–Lantuéjoul edge weights,
+spacing, Schwartz–Saltykov unfolding. Field-to-field statistics (Student t, % relative
+accuracy).
+"""
 
 from ._fieldstats import (
     FieldStats,
@@ -8,12 +15,60 @@ from ._fieldstats import (
     stats_to_dict,
     t_critical,
 )
+from ._grainsize import (
+    astm_g_from_count_at_magnification,
+    astm_g_from_grains_per_mm2,
+    astm_g_from_intercept_um,
+    grains_per_mm2_from_astm_g,
+    intercept_um_from_astm_g,
+    iso643_g_from_grains_per_mm2,
+)
+from ._intercepts import InterceptCount, count_crossings, mean_lineal_intercept
+from ._particles import (
+    ParticleTable,
+    feret_diameters,
+    intercept_density,
+    measure_labels,
+    miles_lantuejoul_weight,
+    nearest_neighbour_distances,
+    point_count,
+)
+from ._planimetric import PlanimetricCount, grain_areas_px, planimetric_count
+from ._sizes import SizeDistribution, lognormal_fit, size_distribution, weighted_quantile
+from ._unfolding import Unfolding, foil_volume_fraction, saltykov_matrix, unfold_sections
 
 __all__ = [
     "FieldStats",
+    "InterceptCount",
+    "ParticleTable",
+    "PlanimetricCount",
+    "SizeDistribution",
+    "Unfolding",
+    "astm_g_from_count_at_magnification",
+    "astm_g_from_grains_per_mm2",
+    "astm_g_from_intercept_um",
+    "count_crossings",
+    "feret_diameters",
     "field_statistics",
+    "foil_volume_fraction",
+    "grain_areas_px",
+    "grains_per_mm2_from_astm_g",
+    "intercept_density",
+    "intercept_um_from_astm_g",
+    "iso643_g_from_grains_per_mm2",
+    "lognormal_fit",
+    "mean_lineal_intercept",
+    "measure_labels",
+    "miles_lantuejoul_weight",
+    "nearest_neighbour_distances",
+    "planimetric_count",
+    "point_count",
+    "saltykov_matrix",
+    "size_distribution",
     "split_unit",
     "stat_key",
     "stats_to_dict",
     "t_critical",
+    "unfold_sections",
+    "weighted_quantile",
 ]
