@@ -157,7 +157,8 @@ def _levels(
         lo = float(opts.threshold_low)
     else:
         strong = strength > hi
-        far = ndi.distance_transform_edt(~strong) > 3.0 * sigma + 2.0
+        reach = 2 * int(np.ceil(3.0 * sigma + 2.0)) + 1
+        far = ~ndi.maximum_filter(strong.view(np.uint8), size=reach).astype(bool)
         sample = strength[far] if np.count_nonzero(far) > 1000 else strength[~strong]
         sample = sample[:: max(1, sample.size // 400_000)]
         lo = float(np.percentile(sample, opts.noise_percentile)) if sample.size else hi / 2
