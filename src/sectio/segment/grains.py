@@ -38,7 +38,9 @@ class GrainSegmentOptions:
     contrast: str = "boundaries"  # "boundaries" | "grains"
     flatten_sigma_px: float | None = None  # None: max(shape) / 8
     ridge_sigma_px: float | None = None  # None: chosen per image among ridge_sigmas_px
-    ridge_sigmas_px: tuple[float, ...] = (1.0, 1.5, 2.0, 3.0)
+    ridge_sigmas_px: tuple[float, ...] = (1.0, 1.5, 2.0, 3.0, 4.5)
+    line_z: float | None = None  # keep faint dividing lines whose mean is this significant (off)
+    scale_to_spacing: float = 7.0  # the scale stays below 1/7 of the closest boundary spacing
     threshold_high: float | None = None  # None: Otsu on the boundary strength
     threshold_low: float | None = None  # None: noise level (percentile off the boundaries)
     noise_percentile: float = 99.5
@@ -143,6 +145,15 @@ def _white_noise_level(opts: GrainSegmentOptions, sigma: float, noise: float) ->
     return float(np.percentile(st[16:-16, 16:-16], opts.noise_percentile))
 
 
+def _background_sample(strength: np.ndarray, hi: float, sigma: float) -> np.ndarray:
+    """Strength values away from clear boundaries (mostly grain interiors), subsampled."""
+    strong = strength > hi
+    reach = 2 * int(np.ceil(3.0 * sigma + 2.0)) + 1
+    far = ~ndi.maximum_filter(strong.view(np.uint8), size=reach).astype(bool)
+    sample = strength[far] if np.count_nonzero(far) > 1000 else strength[~strong]
+    return sample[:: max(1, sample.size // 400_000)]
+
+
 def _levels(
     strength: np.ndarray, opts: GrainSegmentOptions, sigma: float, flat: np.ndarray | None = None
 ) -> tuple[float, float]:
@@ -156,11 +167,7 @@ def _levels(
     if opts.threshold_low is not None:
         lo = float(opts.threshold_low)
     else:
-        strong = strength > hi
-        reach = 2 * int(np.ceil(3.0 * sigma + 2.0)) + 1
-        far = ~ndi.maximum_filter(strong.view(np.uint8), size=reach).astype(bool)
-        sample = strength[far] if np.count_nonzero(far) > 1000 else strength[~strong]
-        sample = sample[:: max(1, sample.size // 400_000)]
+        sample = _background_sample(strength, hi, sigma)
         lo = float(np.percentile(sample, opts.noise_percentile)) if sample.size else hi / 2
         if flat is not None:
             lo = min(lo, 1.5 * _white_noise_level(opts, sigma, _noise_sigma(flat)))
@@ -292,8 +299,22 @@ def _pair_table(labels: np.ndarray, values: np.ndarray):
     return uk, n, np.bincount(inv), np.bincount(inv, weights=v)
 
 
-def _merge_unsupported(labels, on_boundary: np.ndarray, min_support: float):
-    """Merge neighbouring regions whose dividing line lies mostly off detected boundaries."""
+def _merge_unsupported(
+    labels,
+    on_boundary: np.ndarray,
+    min_support: float,
+    strength: np.ndarray | None = None,
+    background: tuple[float, float, float] | None = None,
+    min_line_z: float | None = None,
+):
+    """Merge neighbouring regions whose dividing line is not a boundary.
+
+    A dividing line is kept when at least ``min_support`` of it lies on detected boundary
+    pixels, or when the mean strength along it stands out from the background (grain
+    interiors) by more than ``min_line_z`` standard errors of a mean over that many
+    pixels (a faint but long boundary). ``background`` = (median, robust sd, correlation
+    length in pixels) of the strength inside grains.
+    """
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
 
@@ -301,6 +322,11 @@ def _merge_unsupported(labels, on_boundary: np.ndarray, min_support: float):
         return labels, 0
     uk, n, total, supported = _pair_table(labels, on_boundary.astype(np.float32))
     weak = supported / total < min_support
+    if strength is not None and background is not None and min_line_z is not None:
+        _, _, _, summed = _pair_table(labels, strength)
+        med, sd, corr = background
+        z = (summed / total - med) / (sd * np.sqrt(corr / total) + 1e-12)
+        weak &= z < min_line_z
     a, b = uk[weak] // (n + 1), uk[weak] % (n + 1)
     if a.size == 0:
         return labels, 0
@@ -334,24 +360,39 @@ def _relabel_sequential(labels):
 
 
 def choose_ridge_sigma(image: np.ndarray, opts: GrainSegmentOptions) -> float:
-    """The smoothing scale that best separates boundaries from noise (largest high/low ratio).
+    """The smoothing scale for the boundary strength, judged on a central crop (≤ 512²).
 
-    Judged on a central crop of at most 512 × 512 pixels to keep it cheap.
+    First the scale that best separates boundaries from noise (largest high/low level
+    ratio, a finer scale preferred unless a coarser one is clearly better); then, since a
+    scale must stay well below the spacing of neighbouring boundaries or close boundaries
+    blur together, the largest candidate below 1/``scale_to_spacing`` of the smallest
+    per-direction mean intercept of a trial segmentation of the crop.
     """
     if opts.ridge_sigma_px is not None:
         return float(opts.ridge_sigma_px)
+    from ..stereology._intercepts import count_crossings
+
     h, w = image.shape
     c = 512
     crop = image[
         max(0, h // 2 - c // 2) : h // 2 + c // 2, max(0, w // 2 - c // 2) : w // 2 + c // 2
     ]
+    flat = flatten(crop, opts.flatten_sigma_px)
     best, best_score = opts.ridge_sigmas_px[0], -np.inf
     for sigma in opts.ridge_sigmas_px:
         st = boundary_strength(crop, opts, sigma)
-        hi, lo = _levels(st, opts, sigma, flatten(crop, opts.flatten_sigma_px))
+        hi, lo = _levels(st, opts, sigma, flat)
         score = hi / max(lo, 1e-9)
         if score > best_score * 1.05:  # prefer the finer scale unless clearly better
             best, best_score = sigma, score
+    try:
+        trial = _segment_at_scale(flat, opts, best)
+    except MeasurementError:
+        return float(best)
+    spacing = float(np.nanmin(count_crossings(trial.labels).direction_intercepts_px))
+    finer = [s for s in opts.ridge_sigmas_px if s <= spacing / opts.scale_to_spacing]
+    if best > spacing / opts.scale_to_spacing and finer and max(finer) < best:
+        best = max(finer)
     return float(best)
 
 
@@ -376,11 +417,17 @@ def segment_grains(
     MeasurementError
         When no boundary network (hence no grains) can be found.
     """
-    from skimage.filters import apply_hysteresis_threshold
-
     opts = options or GrainSegmentOptions()
     sigma = choose_ridge_sigma(image, opts)
     flat = flatten(image, opts.flatten_sigma_px)
+    return _segment_at_scale(flat, opts, sigma)
+
+
+def _segment_at_scale(
+    flat: np.ndarray, opts: GrainSegmentOptions, sigma: float
+) -> GrainSegmentation:
+    from skimage.filters import apply_hysteresis_threshold
+
     if opts.contrast == "grains":
         strength = ndi.gaussian_gradient_magnitude(flat, sigma).astype(np.float32)
     else:
@@ -393,7 +440,8 @@ def segment_grains(
     mask = apply_hysteresis_threshold(strength, lo, hi)
     if mask.mean() < 1e-4 or mask.mean() > 0.8:
         raise MeasurementError(
-            "no grain boundary network was found; check --boundaries dark/bright or --contrast grains"
+            "no grain boundary network was found; "
+            "check --boundaries dark/bright or --contrast grains"
         )
     if opts.remove_pits:
         mask = _remove_pits(mask, max_extent_px=6 * sigma + 4)
@@ -411,7 +459,17 @@ def segment_grains(
             labels = _seeded_watershed(mask, strength, opts.gap_px)
     if labels.max() < 1:
         raise MeasurementError("no grains were found; check the boundary contrast options")
-    labels, n_merged = _merge_unsupported(labels, strength > lo, opts.merge_support)
+    bg = _background_sample(strength, hi, sigma)
+    bg_med = float(np.median(bg))
+    bg_sd = float(1.4826 * np.median(np.abs(bg - bg_med)))
+    labels, n_merged = _merge_unsupported(
+        labels,
+        strength > lo,
+        opts.merge_support,
+        strength,
+        (bg_med, bg_sd, 2.0 * sigma),
+        opts.line_z,
+    )
     areas = np.bincount(labels.ravel())[1:]
     areas = areas[areas > 0]
     if opts.min_grain_area_px is not None:
