@@ -22,7 +22,7 @@ recorded in the output):
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, replace
 
 import numpy as np
 from scipy import ndimage as ndi
@@ -38,7 +38,7 @@ class GrainSegmentOptions:
     contrast: str = "boundaries"  # "boundaries" | "grains"
     flatten_sigma_px: float | None = None  # None: max(shape) / 8
     ridge_sigma_px: float | None = None  # None: chosen per image among ridge_sigmas_px
-    ridge_sigmas_px: tuple[float, ...] = (1.0, 1.5, 2.0, 3.0, 4.5)
+    ridge_sigmas_px: tuple[float, ...] = (1.0, 1.5, 2.0, 3.0)
     line_z: float | None = None  # keep faint dividing lines whose mean is this significant (off)
     scale_to_spacing: float = 7.0  # the scale stays below 1/7 of the closest boundary spacing
     threshold_high: float | None = None  # None: Otsu on the boundary strength
