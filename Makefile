@@ -12,8 +12,8 @@ $(STAMP): pyproject.toml
 	touch $(STAMP)
 
 demo: $(STAMP)
-	$(BIN)/sectio grains sample_images/*.tif --out demo_out
-	@echo "Results in demo_out/ (grains.json, grains.csv, overlays)."
+	$(BIN)/sectio study sample_images/demo_study.toml --out demo_out
+	@echo "Report: demo_out/report.html (and report.pdf); per-specimen JSON in demo_out/<specimen>/"
 
 test: $(STAMP)
 	$(BIN)/python -m pytest
@@ -23,6 +23,9 @@ samples: $(STAMP)
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_grains.py
+	$(BIN)/python benchmarks/bench_particles.py
+	$(BIN)/python benchmarks/bench_strength.py
+	$(BIN)/python benchmarks/bench_study.py
 
 clean:
 	rm -rf $(VENV) demo_out build *.egg-info src/*.egg-info

@@ -22,6 +22,7 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     try:
+        os.chmod(tmp, 0o644)  # mkstemp makes 0600; results are ordinary readable files
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()

@@ -135,6 +135,7 @@ def stats_to_dict(name: str, s: FieldStats, *, target_pct: float = 10.0) -> dict
     ``stats_to_dict('mean_intercept_um', s)`` gives ``mean_intercept_um`` (the mean),
     ``mean_intercept_sd_um``, ``mean_intercept_se_um``, ``mean_intercept_ci95_um``,
     ``mean_intercept_relative_accuracy_pct`` and ``mean_intercept_fields_for_10pct``.
+    The lower end of the interval is cut at zero (all our quantities are non-negative).
     """
 
     def f(v):
@@ -145,7 +146,10 @@ def stats_to_dict(name: str, s: FieldStats, *, target_pct: float = 10.0) -> dict
         name: f(s.mean),
         stat_key(name, "sd"): f(s.sd),
         stat_key(name, "se"): f(s.se),
-        stat_key(name, "ci95"): [f(s.ci95[0]), f(s.ci95[1])],
+        # Every quantity summarised here is non-negative: a Student-t interval that
+        # reaches below zero (few, scattered fields) is cut at zero (common practice).
+        stat_key(name, "ci95"): [None if f(s.ci95[0]) is None else max(0.0, f(s.ci95[0])),
+                                 f(s.ci95[1])],
         f"{stem}_relative_accuracy_pct": f(s.relative_accuracy_pct),
         f"{stem}_fields_for_{target_pct:g}pct": s.fields_for_accuracy(target_pct),
     }

@@ -1,0 +1,88 @@
+"""Study throughput: fields per minute with 1 and 2 local workers and through Dask.
+
+Runs the demo study (sample_images/demo_study.toml: 9 steel grain fields and 6 alloy
+particle fields, 512 x 512 px) into fresh folders, so every field is measured (no reuse),
+without the report. Prints fields per minute of the measuring phase (pool start-up
+included) and of the whole run (plus assembling the specimen summaries), and the parallel
+efficiency T(1) / (2 * T(2)).
+
+The machine's own ceiling is measured too: the same pure-Python CPU loop run once alone
+and twice at the same time. On a machine whose two logical CPUs give less than two CPUs of
+work, no program reaches 100 %; the efficiency relative to that ceiling is printed beside
+the raw one.
+
+    python benchmarks/bench_study.py [--repeat 2] [--no-dask]
+"""
+
+from __future__ import annotations
+
+import argparse
+import multiprocessing as mp
+import tempfile
+import time
+from pathlib import Path
+
+from sectio.study import load_study, run_study
+
+HERE = Path(__file__).resolve().parent
+STUDY = HERE.parent / "sample_images" / "demo_study.toml"
+
+
+def _spin(_=None) -> float:
+    t = time.perf_counter()
+    s = 0
+    for i in range(10_000_000):
+        s += i
+    return time.perf_counter() - t
+
+
+def machine_ceiling() -> float:
+    """Speed-up the machine gives two busy processes over one (2.0 = two real cores)."""
+    ctx = mp.get_context("spawn")
+    with ctx.Pool(1) as p:
+        one = min(p.map(_spin, range(2)))
+    with ctx.Pool(2) as p:
+        two = max(p.map(_spin, range(2)))
+    return 2 * one / two
+
+
+def timed(label: str, repeat: int, **kw) -> tuple[float, float]:
+    study = load_study(STUDY)
+    best = (float("inf"), float("inf"))
+    for _ in range(repeat):
+        with tempfile.TemporaryDirectory() as d:
+            run = run_study(study, Path(d) / "out", report=False, **kw)
+        assert run.computed == study.n_fields() and not run.failed
+        best = min(best, (run.field_seconds, run.seconds))
+    n = study.n_fields()
+    print(f"{label:<40} {n} fields: measuring {best[0]:6.2f} s = {60 * n / best[0]:6.1f} "
+          f"fields/min; whole run {best[1]:6.2f} s = {60 * n / best[1]:6.1f} fields/min")
+    return best
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--repeat", type=int, default=2)
+    ap.add_argument("--no-dask", action="store_true")
+    a = ap.parse_args()
+    ceiling = machine_ceiling()
+    print(f"machine: two busy processes run {ceiling:.2f}x as fast as one "
+          f"(2.00 = two full cores)")
+    t1 = timed("local, 1 worker (in process)", a.repeat, workers=1)
+    t2 = timed("local, 2 worker processes", a.repeat, workers=2)
+    for i, what in enumerate(("measuring", "whole run")):
+        eff = t1[i] / (2 * t2[i])
+        print(f"parallel efficiency, 2 workers, {what}: {100 * eff:.0f} % raw, "
+              f"{100 * eff * 2 / ceiling:.0f} % of what this machine allows")
+    if not a.no_dask:
+        from dask.distributed import LocalCluster
+
+        with LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                          host="127.0.0.1", dashboard_address=None) as cluster:
+            td = timed("dask LocalCluster, 2 processes x 1 thread", a.repeat,
+                       scheduler=cluster.scheduler_address)
+        print(f"dask / 2 local workers, measuring: {t2[0] / td[0]:.2f}x the speed")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,285 @@
+"""Running a study: plan the field tasks, skip finished ones, execute, assemble, report.
+
+Output folder layout::
+
+    DIR/fields/<key>.json       one record per field (written atomically; the resume cache)
+    DIR/fields/<key>.png        its overlay (written before the record)
+    DIR/<specimen>/grains.json  particles.json  strength.json  *.csv  overlays
+    DIR/study.json              schema sectio/study@1 (deterministic: no times, no abs. paths)
+    DIR/report.html  report.pdf
+    DIR/run_log.json            timings and what was computed or reused (differs per run)
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from .. import __version__
+from ..report._io import atomic_write_bytes, write_csv, write_json
+from ._assemble import (
+    GRAIN_CSV_COLUMNS,
+    PARTICLE_CSV_COLUMNS,
+    STUDY_SCHEMA,
+    specimen_documents,
+    trend_points,
+)
+from ._studyfile import Study
+from ._work import RECORD_SCHEMA, FieldTask, field_key
+
+__all__ = ["StudyRun", "plan_fields", "run_study"]
+
+
+@dataclass(frozen=True)
+class PlannedField:
+    specimen: str
+    kind: str
+    image: str  # shown name
+    path: Path
+    key: str
+
+
+@dataclass
+class StudyRun:
+    """What a run did: the study document, output folder, counts and failures."""
+
+    out_dir: Path
+    study_doc: dict
+    computed: int
+    reused: int
+    failed: list = field(default_factory=list)
+    seconds: float = 0.0
+    field_seconds: float = 0.0  # measuring the fields (pool start-up included)
+
+    @property
+    def ok(self) -> bool:
+        return not self.failed
+
+
+def _task_options(study: Study, spec, kind: str) -> dict:
+    if kind == "grains":
+        opts = dict(spec.grain_options)
+        if "angles_deg" in opts:
+            opts["angles_deg"] = list(opts["angles_deg"])
+        return opts
+    return {**spec.particle_options, "seed": study.seed}
+
+
+def plan_fields(study: Study) -> list[PlannedField]:
+    """Every (specimen, kind, image) of the study with its content key, in study order."""
+    plan = []
+    for spec in study.specimens:
+        for kind in spec.measure:
+            opts = _task_options(study, spec, kind)
+            for shown, path in zip(spec.images, spec.image_paths, strict=True):
+                data = path.read_bytes()
+                plan.append(PlannedField(spec.name, kind, shown, path,
+                                         field_key(data, kind, spec.calibration, opts)))
+    return plan
+
+
+def _load_record(folder: Path, key: str) -> dict | None:
+    p = folder / f"{key}.json"
+    try:
+        rec = json.loads(p.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    if not (isinstance(rec, dict) and rec.get("schema") == RECORD_SCHEMA
+            and rec.get("key") == key and rec.get("status") in ("ok", "failed")):
+        return None
+    if rec["status"] == "ok" and not (folder / f"{key}.png").is_file():
+        return None
+    return rec
+
+
+def _roundtrip(record: dict) -> dict:
+    from ..report._io import to_json_text
+
+    return json.loads(to_json_text(record))
+
+
+def run_study(study: Study, out_dir: str | os.PathLike, *, workers: int | None = None,
+              scheduler: str | None = None, scheduler_timeout_s: float = 20.0,
+              report: bool = True, progress: Callable[[int, int], None] | None = None) -> StudyRun:
+    """Measure every field of ``study`` (skipping finished ones) and write all outputs.
+
+    Parameters
+    ----------
+    study : Study
+        From :func:`sectio.study.load_study`.
+    out_dir : path
+        Output folder (created). Field records in ``out_dir/fields`` are reused on a rerun.
+    workers : int, optional
+        Local worker processes (default ``os.cpu_count()``; 1 runs in this process).
+    scheduler : str, optional
+        ``tcp://HOST:PORT`` of a Dask distributed scheduler; the fields run there.
+    scheduler_timeout_s : float
+        How long to try to reach the scheduler.
+    report : bool
+        Also write report.html and report.pdf.
+    progress : callable(done, total), optional
+        Called after each field that had to be computed.
+    """
+    from ._executors import dask_executor, local_executor, serial_executor
+
+    t0 = time.perf_counter()
+    out = Path(out_dir)
+    fields_dir = out / "fields"
+    fields_dir.mkdir(parents=True, exist_ok=True)
+    plan = plan_fields(study)
+    records: dict[str, dict] = {}
+    transient: dict[str, dict] = {}
+    todo: dict[str, PlannedField] = {}
+    for pf in plan:
+        if pf.key in records or pf.key in todo:
+            continue
+        rec = _load_record(fields_dir, pf.key)
+        if rec is not None:
+            records[pf.key] = rec
+        else:
+            todo[pf.key] = pf
+    reused = len(records)
+    specs = {s.name: s for s in study.specimens}
+
+    def tasks():
+        for pf in todo.values():
+            spec = specs[pf.specimen]
+
+            def make(pf=pf, spec=spec):
+                return FieldTask(pf.key, pf.kind, pf.image, pf.path.read_bytes(),
+                                 dict(spec.calibration), _task_options(study, spec, pf.kind))
+
+            yield make
+
+    n_workers = workers or os.cpu_count() or 1
+    if scheduler:
+        execu = dask_executor(tasks(), address=scheduler, timeout_s=scheduler_timeout_s)
+    elif n_workers == 1 or len(todo) <= 1:
+        execu = serial_executor(tasks())
+    else:
+        execu = local_executor(tasks(), workers=min(n_workers, len(todo)))
+    done = 0
+    t_fields = time.perf_counter()
+    if progress:
+        progress(0, len(todo))
+    for task, record, png in execu:
+        if record.get("status") == "error":  # an unexpected failure: not cached
+            transient[task.key] = _roundtrip(record)
+        else:
+            if png is not None:
+                atomic_write_bytes(fields_dir / f"{task.key}.png", png)
+            data = (json.dumps(record, indent=1, ensure_ascii=False, allow_nan=False)
+                    + "\n").encode("utf-8")
+            atomic_write_bytes(fields_dir / f"{task.key}.json", data)
+            records[task.key] = json.loads(data)
+        done += 1
+        if progress:
+            progress(done, len(todo))
+    computed = done
+    field_seconds = time.perf_counter() - t_fields
+    run = assemble(study, out, plan, {**records, **transient}, report=report)
+    run.computed, run.reused = computed, reused
+    run.seconds = time.perf_counter() - t0
+    run.field_seconds = field_seconds
+    write_json(out / "run_log.json", {
+        "schema": "sectio/study-run@1", "sectio_version": __version__,
+        "study_file": str(study.path.resolve()), "fields_planned": len(plan),
+        "fields_computed": computed, "fields_reused": reused,
+        "executor": (f"dask {scheduler}" if scheduler else
+                     f"local, {n_workers} worker(s)"),
+        "seconds": run.seconds,
+        "field_seconds": field_seconds,
+        "fields_per_minute": 60.0 * computed / field_seconds if field_seconds > 0 else None,
+    })
+    return run
+
+
+def _with_image(record: dict, image: str) -> dict:
+    """The record as seen under the image name of this study (content keys are shared)."""
+    from ._work import _replace_strings
+
+    old = record.get("image")
+    if old == image or not old:
+        return record
+    return _replace_strings(record, old, image)
+
+
+def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = True) -> StudyRun:
+    """Write per-specimen documents, study.json and the report from the field records."""
+    fields_dir = out / "fields"
+    by_spec: dict[str, dict[str, list]] = {}
+    for pf in plan:
+        rec = records[pf.key]
+        by_spec.setdefault(pf.specimen, {}).setdefault(pf.kind, []).append(
+            _with_image(rec, pf.image))
+    docs, spec_entries, failed = {}, [], []
+    for spec in study.specimens:
+        recs = by_spec.get(spec.name, {})
+        d = specimen_documents(study, spec, recs)
+        docs[spec.name] = d
+        sdir = out / spec.name
+        files = {}
+        for kind, csv_cols in (("grains", GRAIN_CSV_COLUMNS),
+                               ("particles", PARTICLE_CSV_COLUMNS)):
+            part = d[kind]
+            if part is None:
+                continue
+            for name, key in part["overlays"].items():
+                src = fields_dir / f"{key}.png"
+                atomic_write_bytes(sdir / name, src.read_bytes())
+            if kind == "particles" and part["fields"]:
+                from ..report.particles import write_size_distribution_png
+
+                write_size_distribution_png(sdir / "size_distribution.png", part["fields"],
+                                            part["doc"]["summary"])
+                part["doc"]["size_distribution_png"] = "size_distribution.png"
+            write_csv(sdir / f"{kind}.csv", part["csv_rows"], columns=csv_cols)
+            write_json(sdir / f"{kind}.json", part["doc"])
+            files[kind] = f"{spec.name}/{kind}.json"
+        if d["strength"] is not None:
+            write_json(sdir / "strength.json", d["strength"])
+            files["strength"] = f"{spec.name}/strength.json"
+        fl = [{"specimen": spec.name, "kind": kind, "image": r["image"], "reason": r["reason"]}
+              for kind, rs in recs.items() for r in rs if r["status"] != "ok"]
+        failed.extend(fl)
+        st = d["strength"]
+        spec_entries.append({
+            **spec.to_dict(),
+            "files": files,
+            "fields": [{"kind": kind, "image": r["image"], "key": r["key"],
+                        "status": r["status"]} for kind, rs in recs.items() for r in rs],
+            "grains": d["grains"]["doc"]["summary"] if d["grains"] else None,
+            "particles": ({k: v for k, v in d["particles"]["doc"]["summary"].items()
+                           if k != "unfolding"} if d["particles"] else None),
+            "strength": None if st is None else {
+                k: st[k] for k in ("yield_mpa", "contributions_mpa", "variance_share",
+                                   "assumptions", "flags", "warnings", "caution")},
+            "strength_note": d["strength_error"],
+            "warnings": d["warnings"],
+            "failed": fl,
+        })
+    doc = {
+        "schema": STUDY_SCHEMA,
+        "title": study.title,
+        "description": study.description,
+        "study_file": study.path.name,
+        "sectio_version": __version__,
+        "settings": {"seed": study.seed, "draws": study.draws, "bootstrap": study.bootstrap,
+                     "materials_file": (study.materials_file.name
+                                        if study.materials_file else None)},
+        "specimens": spec_entries,
+        "trends": trend_points(study, docs),
+        "failed": failed,
+    }
+    write_json(out / "study.json", doc)
+    if report:
+        from ..report.html import write_html_report
+        from ..report.pdf import write_pdf_report
+
+        write_html_report(out / "report.html", doc, out)
+        write_pdf_report(out / "report.pdf", doc, out)
+    return StudyRun(out, doc, 0, 0, failed)
