@@ -117,6 +117,7 @@ def child(mp: int, cache: Path, repeat: int, profile: bool) -> None:
                 pstats.Stats(pr, stream=buf).strip_dirs().sort_stats(key).print_stats(15)
             prof_text = buf.getvalue()
     rss_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024  # kB on Linux
+    # (the run under tracemalloc and the profiled run are included: they hold no more data)
     print(json.dumps({"mp": mp, "best": best, "all_totals": [r["total"] for r in runs],
                       "tracemalloc_peak_mb": peak / 2**20, "maxrss_mb": rss_mb,
                       "profile": prof_text}))
@@ -130,13 +131,20 @@ def main() -> None:
     ap.add_argument("--profile", type=int, default=4, help="size (MP) to profile; 0 = none")
     ap.add_argument("--cache", type=Path, default=Path("bench_out/grains"))
     ap.add_argument("--child", type=int, default=None, help=argparse.SUPPRESS)
+    ap.add_argument("--make", type=int, default=None, help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.child is not None:
         child(args.child, args.cache, args.repeat or 1, args.profile == args.child)
         return
-    print("images (cached, generation not timed):")
+    if args.make is not None:
+        make_image(args.cache, args.make)
+        return
+    # Everything heavy runs in child processes: Linux keeps ru_maxrss across fork/exec, so
+    # a parent that had grown would hand its peak to every child.
+    print("images (cached, generation not timed):", flush=True)
     for mp in args.sizes:
-        make_image(args.cache, mp)
+        subprocess.run([sys.executable, __file__, "--make", str(mp), "--cache", str(args.cache)],
+                       check=True)
     results = []
     for mp in args.sizes:
         repeat = args.repeat or (2 if mp <= 4 else 1)

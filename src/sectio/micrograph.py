@@ -219,7 +219,7 @@ def from_array(
 def _finish(grey, pixel_size_um, source, path, crop_bottom, notes, calibration) -> Micrograph:
     original_shape = tuple(int(v) for v in grey.shape)
     crop_bottom = int(crop_bottom or 0)
-    if crop_bottom < 0 or crop_bottom >= grey.shape[0] - 16:
+    if crop_bottom < 0 or (crop_bottom > 0 and crop_bottom >= grey.shape[0] - 16):
         raise OptionError(
             f"--crop-bottom {crop_bottom} does not fit {path} ({grey.shape[0]} rows); "
             "give the height of the info strip in pixels, less than the image height."

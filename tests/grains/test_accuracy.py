@@ -109,7 +109,8 @@ def skeleton_crossings(mask: np.ndarray, spacing: int) -> float:
     sk = skeletonize(mask)
     p_l = []
     rows = sk[::spacing]
-    p_l.append(np.count_nonzero(~rows[:, :-1] & rows[:, 1:]) / (rows.shape[0] * (rows.shape[1] - 1)))
+    n_rows = rows.shape[0] * (rows.shape[1] - 1)
+    p_l.append(np.count_nonzero(~rows[:, :-1] & rows[:, 1:]) / n_rows)
     cols = sk[:, ::spacing]
     p_l.append(np.count_nonzero(~cols[:-1] & cols[1:]) / ((cols.shape[0] - 1) * cols.shape[1]))
     for m in (sk[:, ::-1], sk):

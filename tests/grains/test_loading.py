@@ -270,7 +270,8 @@ def test_odd_3d_stack(tmp_path):
 def test_blank_image(tmp_path):
     p = tmp_path / "blank.tif"
     tifffile.imwrite(p, np.full((64, 64), 77, np.uint8))
-    with pytest.raises(MeasurementError, match=_named(p) + r" is blank \(every pixel has the value 77\)"):
+    msg = _named(p) + r" is blank \(every pixel has the value 77\)"
+    with pytest.raises(MeasurementError, match=msg):
         load(p, pixel_size="1um")
 
 
@@ -281,12 +282,7 @@ def test_tiny_image_narrow(tmp_path):
         load(p, pixel_size="1um")
 
 
-# BUG (src/sectio/micrograph.py, _finish, the first check): an image fewer than 17 rows
-# tall fails the --crop-bottom check even when no crop was asked for, so the user is told
-# "--crop-bottom 0 does not fit ..." (an OptionError, which `sectio grains` treats as a
-# usage error and aborts the whole run on) instead of "is only W x H pixels".
-# Suggested fix: `if crop_bottom < 0 or (crop_bottom > 0 and crop_bottom >= grey.shape[0] - 16):`
-@pytest.mark.xfail(strict=True, reason="tiny image reported as a --crop-bottom OptionError")
+# An image under 17 rows must be reported as too small, not as a --crop-bottom problem.
 def test_tiny_image_short(tmp_path):
     p = tmp_path / "tiny.png"
     Image.fromarray(_ramp(10, 12)).save(p)

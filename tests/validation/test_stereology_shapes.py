@@ -171,18 +171,8 @@ def test_poisson_voronoi_planimetric_and_g_offset(poisson_voronoi):
     assert g_int - g_plan == pytest.approx(0.36, abs=0.08)
 
 
-# Circle test lines sample the label map every ~0.5 px at the nearest pixel. A smooth curve
-# crossing a pixel staircase at a shallow angle flips between the two labels several
-# times, so every such crossing is counted 2–4 times: on this image the circle intercept
-# comes out ≈ 15 % below the straight-line value (0.68/√λ instead of ≈ 0.80/√λ).
-# Suggested fix in src/sectio/stereology/_intercepts.py::_circle_crossings — count changes
-# of the run sequence after removing runs shorter than ~1.5 px of arc whose two neighbours
-# carry the same label (A-B-A jitter); measured with that rule on this image: 0.78–0.80/√λ
-# for radii 30–100 px.
-@pytest.mark.xfail(
-    strict=True,
-    reason="circle test lines over-count staircase crossings (≈ −15 % intercept); see comment",
-)
+# Nearest-pixel sampling of a circle flickers A-B-A where it meets a boundary staircase
+# at a shallow angle; _cyclic_crossings absorbs such sub-1.5-px runs (these tests pin it).
 @pytest.mark.parametrize("radius_px", [60.0, 120.0])
 def test_circle_lines_agree_with_straight_lines(poisson_voronoi, radius_px):
     labels, lam = poisson_voronoi
@@ -210,10 +200,6 @@ def test_circle_line_meets_a_straight_boundary_twice(angle_deg, distance_px):
     assert c.circle_crossings == 2
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="circle test lines count a shallow crossing of a pixel staircase 2-4 times",
-)
 @pytest.mark.parametrize("angle_deg, distance_px", [(33, 90), (33, 95), (33, 98), (10, 98)])
 def test_circle_line_meets_a_shallow_boundary_twice(angle_deg, distance_px):
     # geometry as above; a chord near the rim crosses the circle at a shallow angle, where

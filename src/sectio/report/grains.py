@@ -91,13 +91,20 @@ def grain_overlay(field, *, max_lines_per_direction: int = 12) -> np.ndarray:
 
 
 def _caption_strip(width: int, lines: list[str]) -> np.ndarray:
+    """A dark strip with the caption lines, the font shrunk until the longest line fits."""
     from PIL import Image, ImageDraw, ImageFont
 
-    size = max(12, min(22, width // 60))
-    try:
-        font = ImageFont.load_default(size=size)
-    except TypeError:  # Pillow < 10.1
-        font = ImageFont.load_default()
+    size = max(10, min(22, width // 55))
+    while True:
+        try:
+            font = ImageFont.load_default(size=size)
+        except TypeError:  # Pillow < 10.1: one bitmap size only
+            font = ImageFont.load_default()
+            break
+        longest = max(font.getlength(t) for t in lines)
+        if longest <= width - 16 or size <= 9:
+            break
+        size -= 1
     h = (size + 6) * len(lines) + 8
     im = Image.new("RGB", (width, h), (24, 24, 24))
     d = ImageDraw.Draw(im)
@@ -116,10 +123,10 @@ def overlay_png_bytes(field) -> bytes:
     d = field.to_dict()
     caption = [
         f"{Path(d['image']).name}   pixel {d['pixel_size_um']:.4g} um ({d['pixel_size_source']})",
-        f"mean lineal intercept {d['mean_intercept_um']:.3g} um  ({d['intercept_count']} crossings)"
-        f"   G(intercept) {d['astm_g_intercept']:.1f}   G(planimetric) {d['astm_g_planimetric']:.1f}"
-        f"   {d['grain_count']} grains",
-        "amber: detected boundaries   blue: test lines (subset drawn)   magenta: crossings",
+        f"mean lineal intercept {d['mean_intercept_um']:.3g} um ({d['intercept_count']} crossings)",
+        f"G(intercept) {d['astm_g_intercept']:.1f}   G(planimetric) "
+        f"{d['astm_g_planimetric']:.1f}   {d['grain_count']} grains",
+        "amber: boundaries  blue: test lines (subset)  magenta: crossings",
     ]
     strip = _caption_strip(rgb.shape[1], caption)
     out = np.vstack([rgb, strip])
