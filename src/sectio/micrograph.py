@@ -291,7 +291,8 @@ def load(
     suffix = p.suffix.lower()
     if suffix not in TIFF_SUFFIXES | OTHER_SUFFIXES:
         raise ImageReadError(
-            f"{path}: unsupported file type {suffix or '(none)'}; use one of {', '.join(SUPPORTED)}."
+            f"{path}: unsupported file type {suffix or '(none)'}; "
+            f"use one of {', '.join(SUPPORTED)}."
         )
     notes: list[str] = []
     tag_size, tag_source = None, ""

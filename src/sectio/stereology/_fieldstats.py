@@ -31,7 +31,7 @@ def split_unit(name: str) -> tuple[str, str]:
 
 
 def stat_key(name: str, stat: str) -> str:
-    """Key for a statistic of a quantity, the unit kept last: ``stat_key('mean_ecd_um', 'ci95')``."""
+    """Key for a statistic, the unit kept last: ``stat_key('mean_ecd_um', 'ci95')``."""
     stem, unit = split_unit(name)
     return f"{stem}_{stat}{unit}"
 
