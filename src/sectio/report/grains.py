@@ -131,7 +131,7 @@ def overlay_png_bytes(field) -> bytes:
     strip = _caption_strip(rgb.shape[1], caption)
     out = np.vstack([rgb, strip])
     buf = io.BytesIO()
-    Image.fromarray(out).save(buf, format="PNG", optimize=False, compress_level=3)
+    Image.fromarray(out).save(buf, format="PNG", optimize=False, compress_level=1)
     return buf.getvalue()
 
 

@@ -82,6 +82,7 @@ class GrainSegmentation:
     n_merged: int
     n_small_removed: int
     ridge_sigma_px: float = 1.5
+    typical_region_px: float = 0.0  # √ median area of the watershed regions before merging
 
 
 def flatten(image: np.ndarray, sigma_px: float | None = None) -> np.ndarray:
@@ -321,16 +322,33 @@ def _merge_unsupported(labels, on_boundary: np.ndarray, min_support: float):
 
 
 def _absorb_small(labels, strength, min_area_px):
-    """Give the pixels of regions below the size floor to the nearest remaining grain."""
+    """Join each region below the size floor to the neighbour it shares most border with."""
     counts = np.bincount(labels.ravel())
     small = counts < min_area_px
     small[0] = False
     n_small = int(np.count_nonzero(small[1:] & (counts[1:] > 0)))
     if n_small == 0 or n_small == np.count_nonzero(counts[1:]):
         return labels, 0
-    drop = small[labels]
-    _, (iy, ix) = ndi.distance_transform_edt(drop, return_distances=True, return_indices=True)
-    return labels[iy, ix].astype(np.int32), n_small
+    uk, n, contacts, _ = _pair_table(labels, np.zeros(labels.shape, np.float32))
+    a, b = uk // (n + 1), uk % (n + 1)
+    # Each pair counts for both members; for a small region take the neighbour with the
+    # longest shared border (ties: the larger neighbour).
+    own = np.concatenate([a, b])
+    other = np.concatenate([b, a])
+    touch = np.concatenate([contacts, contacts]).astype(float)
+    keep = small[own]
+    own, other, touch = own[keep], other[keep], touch[keep]
+    order = np.lexsort((counts[other], touch, own))  # last per own = most contact
+    last = np.r_[own[order][1:] != own[order][:-1], True]
+    lut = np.arange(n + 1)
+    lut[own[order][last]] = other[order][last]
+    # Follow chains of small regions joined to small regions (a few steps suffice).
+    for _ in range(8):
+        nxt = lut[lut]
+        if np.array_equal(nxt, lut):
+            break
+        lut = nxt
+    return lut[labels].astype(np.int32), n_small
 
 
 def _relabel_sequential(labels):
@@ -378,6 +396,11 @@ def _check_boundaries_present(scores, opts: GrainSegmentOptions) -> None:
 
 
 def choose_ridge_sigma(image: np.ndarray, opts: GrainSegmentOptions) -> float:
+    """See :func:`_choose_scale`; returns the scale only."""
+    return _choose_scale(image, opts)[0]
+
+
+def _choose_scale(image: np.ndarray, opts: GrainSegmentOptions) -> tuple[float, float | None]:
     """The smoothing scale for the boundary strength, judged on a central crop (≤ 512²).
 
     First the scale that best separates boundaries from noise (largest high/low level
@@ -394,7 +417,7 @@ def choose_ridge_sigma(image: np.ndarray, opts: GrainSegmentOptions) -> float:
     if opts.threshold_high is None:
         _check_boundaries_present(scores, opts)
     if opts.ridge_sigma_px is not None:
-        return float(opts.ridge_sigma_px)
+        return float(opts.ridge_sigma_px), None
     best, best_score = opts.ridge_sigmas_px[0], -np.inf
     for sigma, hi, lo, _ in scores:
         score = hi / max(lo, 1e-9)
@@ -403,12 +426,12 @@ def choose_ridge_sigma(image: np.ndarray, opts: GrainSegmentOptions) -> float:
     try:
         trial = _segment_at_scale(flat, opts, best)
     except MeasurementError:
-        return float(best)
+        return float(best), None
     spacing = float(np.nanmin(count_crossings(trial.labels).direction_intercepts_px))
     finer = [s for s in opts.ridge_sigmas_px if s <= spacing / opts.scale_to_spacing]
     if best > spacing / opts.scale_to_spacing and finer and max(finer) < best:
-        best = max(finer)
-    return float(best)
+        return float(max(finer)), None
+    return float(best), trial.typical_region_px
 
 
 def segment_grains(
@@ -433,14 +456,17 @@ def segment_grains(
         When no boundary network (hence no grains) can be found.
     """
     opts = options or GrainSegmentOptions()
-    sigma = choose_ridge_sigma(image, opts)
+    sigma, typical_px = _choose_scale(image, opts)
     flat = flatten(image, opts.flatten_sigma_px)
-    return _segment_at_scale(flat, opts, sigma)
+    return _segment_at_scale(flat, opts, sigma, typical_px)
 
 
 def _segment_at_scale(
-    flat: np.ndarray, opts: GrainSegmentOptions, sigma: float
+    flat: np.ndarray, opts: GrainSegmentOptions, sigma: float, typical_px: float | None = None
 ) -> GrainSegmentation:
+    """Segment at one scale. ``typical_px``: the typical region size (√ median area of the
+    watershed regions before merging) if already known from a trial; scratches are then
+    looked for before the watershed, which then runs once."""
     from skimage.filters import apply_hysteresis_threshold
 
     if opts.contrast == "grains":
@@ -460,18 +486,23 @@ def _segment_at_scale(
         )
     if opts.remove_pits:
         mask = _remove_pits(mask, max_extent_px=6 * sigma + 4)
-    labels = _seeded_watershed(mask, strength, opts.gap_px)
-    n_scratches = 0
-    if opts.remove_scratches and labels.max() > 1 and opts.contrast != "grains":
+    scratches_wanted = opts.remove_scratches and opts.contrast != "grains"
+    labels = None
+    if typical_px is None:
+        labels = _seeded_watershed(mask, strength, opts.gap_px)
         areas = np.bincount(labels.ravel())[1:]
-        typical = float(np.sqrt(np.median(areas[areas > 0])))
-        lines = _scratch_lines(mask, flat, strength, lo, typical, opts, sigma)
+        typical_px = float(np.sqrt(np.median(areas[areas > 0]))) if areas.any() else 0.0
+    n_scratches = 0
+    if scratches_wanted and typical_px > 0:
+        lines = _scratch_lines(mask, flat, strength, lo, typical_px, opts, sigma)
         if lines:
             n_scratches = len(lines)
             scratch = _scratch_pixels(mask.shape, lines, sigma + 1, normal)
             mask = mask & ~scratch
             strength = np.where(scratch, np.minimum(strength, lo * 0.5), strength)
-            labels = _seeded_watershed(mask, strength, opts.gap_px)
+            labels = None
+    if labels is None:
+        labels = _seeded_watershed(mask, strength, opts.gap_px)
     if labels.max() < 1:
         raise MeasurementError("no grains were found; check the boundary contrast options")
     support = strength > lo
@@ -493,7 +524,17 @@ def _segment_at_scale(
     if labels.max() < 2:
         raise MeasurementError("fewer than two grains were found; check the boundary options")
     return GrainSegmentation(
-        labels, mask, strength, hi, lo, min_area, n_scratches, n_merged, n_small, sigma
+        labels,
+        mask,
+        strength,
+        hi,
+        lo,
+        min_area,
+        n_scratches,
+        n_merged,
+        n_small,
+        sigma,
+        typical_px,
     )
 
 
