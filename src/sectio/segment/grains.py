@@ -322,33 +322,48 @@ def _merge_unsupported(labels, on_boundary: np.ndarray, min_support: float):
 
 
 def _absorb_small(labels, strength, min_area_px):
-    """Join each region below the size floor to the neighbour it shares most border with."""
+    """Join each region below the size floor to the neighbour it shares most border with.
+
+    Repeated until no region below the floor is left (or nothing changes), so a cluster of
+    small fragments ends up inside a neighbouring grain.
+    """
     counts = np.bincount(labels.ravel())
-    small = counts < min_area_px
-    small[0] = False
-    n_small = int(np.count_nonzero(small[1:] & (counts[1:] > 0)))
+    n_small = int(np.count_nonzero((counts[1:] < min_area_px) & (counts[1:] > 0)))
     if n_small == 0 or n_small == np.count_nonzero(counts[1:]):
         return labels, 0
-    uk, n, contacts, _ = _pair_table(labels, np.zeros(labels.shape, np.float32))
-    a, b = uk // (n + 1), uk % (n + 1)
-    # Each pair counts for both members; for a small region take the neighbour with the
-    # longest shared border (ties: the larger neighbour).
-    own = np.concatenate([a, b])
-    other = np.concatenate([b, a])
-    touch = np.concatenate([contacts, contacts]).astype(float)
-    keep = small[own]
-    own, other, touch = own[keep], other[keep], touch[keep]
-    order = np.lexsort((counts[other], touch, own))  # last per own = most contact
-    last = np.r_[own[order][1:] != own[order][:-1], True]
-    lut = np.arange(n + 1)
-    lut[own[order][last]] = other[order][last]
-    # Follow chains of small regions joined to small regions (a few steps suffice).
-    for _ in range(8):
-        nxt = lut[lut]
-        if np.array_equal(nxt, lut):
+    for _ in range(10):
+        counts = np.bincount(labels.ravel())
+        small = (counts < min_area_px) & (counts > 0)
+        small[0] = False
+        if not small.any() or np.count_nonzero(counts[1:] > 0) < 2:
             break
-        lut = nxt
-    return lut[labels].astype(np.int32), n_small
+        uk, n, contacts, _ = _pair_table(labels, np.zeros(labels.shape, np.float32))
+        a, b = uk // (n + 1), uk % (n + 1)
+        own = np.concatenate([a, b])
+        other = np.concatenate([b, a])
+        touch = np.concatenate([contacts, contacts]).astype(float)
+        keep = small[own]
+        own, other, touch = own[keep], other[keep], touch[keep]
+        if own.size == 0:
+            break
+        # Per small region, the neighbour with the longest shared border (ties: larger).
+        order = np.lexsort((counts[other], touch, own))
+        last = np.r_[own[order][1:] != own[order][:-1], True]
+        lut = np.arange(n + 1)
+        lut[own[order][last]] = other[order][last]
+        # Two small regions pointing at each other join under the smaller label.
+        mutual = lut[lut] == np.arange(n + 1)
+        lut = np.where(mutual, np.minimum(lut, np.arange(n + 1)), lut)
+        for _ in range(8):  # follow chains a -> b -> c
+            nxt = lut[lut]
+            if np.array_equal(nxt, lut):
+                break
+            lut = nxt
+        new = lut[labels].astype(np.int32)
+        if np.array_equal(new, labels):
+            break
+        labels = new
+    return labels, n_small
 
 
 def _relabel_sequential(labels):
