@@ -14,6 +14,8 @@ from pathlib import Path
 import click
 
 from ..errors import CalibrationError, InputError, OptionError
+from ._common import fmt as _fmt
+from ._common import overlay_name
 
 CSV_COLUMNS = [
     "image",
@@ -26,14 +28,6 @@ CSV_COLUMNS = [
 ]
 
 
-def overlay_name(path: str, used: set[str]) -> str:
-    """A unique overlay file name for a field (``<stem>_overlay.png``)."""
-    stem = Path(path).stem or "field"
-    name, i = f"{stem}_overlay.png", 2
-    while name in used:
-        name, i = f"{stem}_{i}_overlay.png", i + 1
-    used.add(name)
-    return name
 
 
 def _parse_angles(text: str) -> tuple[float, ...]:
@@ -239,8 +233,6 @@ def run_grain_fields(
     return dicts, rows, failed
 
 
-def _fmt(v, spec):
-    return "-" if v is None else format(v, spec)
 
 
 def print_table(dicts, summary, failed) -> None:

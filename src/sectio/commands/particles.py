@@ -14,22 +14,15 @@ from pathlib import Path
 import click
 
 from ..errors import CalibrationError, InputError, OptionError
+from ._common import fmt as _fmt
+from ._common import overlay_name
 
 CSV_COLUMNS = ["image", "particle", "area_um2", "ecd_um", "feret_max_um", "feret_min_um",
                "aspect_ratio", "centroid_x_um", "centroid_y_um", "cut_by_edge", "weight"]
 
 
-def _overlay_name(path: str, used: set[str]) -> str:
-    stem = Path(path).stem or "field"
-    name, i = f"{stem}_overlay.png", 2
-    while name in used:
-        name, i = f"{stem}_{i}_overlay.png", i + 1
-    used.add(name)
-    return name
 
 
-def _fmt(v, spec):
-    return "-" if v is None else format(v, spec)
 
 
 @click.command("particles", context_settings={"help_option_names": ["-h", "--help"]})
@@ -90,7 +83,7 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
             calibration_failures += isinstance(exc, CalibrationError) and scale_bar is None
             click.echo(f"{path}: skipped: {exc}", err=True)
             continue
-        overlay = _overlay_name(path, used)
+        overlay = overlay_name(path, used)
         write_overlay_png(out / overlay, f)
         fields.append(f)
         dicts.append({**f.to_dict(), "overlay_png": overlay})
