@@ -52,6 +52,8 @@ class GrainSegmentOptions:
     remove_scratches: bool = True
     scratch_min_length_fraction: float = 0.2
     scratch_side_ratio: float = 1.0
+    scratch_votes: float = 0.3  # Hough votes needed, as a fraction of the minimum length
+    scratch_gap_fraction: float = 0.0  # largest gap bridged along a scratch (of the shorter side)
     remove_pits: bool = True
 
     def __post_init__(self):
@@ -228,9 +230,9 @@ def _scratch_lines(
     noise = 1.4826 * float(np.median(np.abs(flat[::2, 1::2] - flat[::2, :-1:2]))) / np.sqrt(2) / 4
     lines = probabilistic_hough_line(
         candidates,
-        threshold=int(min_len * 0.3),
+        threshold=int(min_len * opts.scratch_votes),
         line_length=int(min_len),
-        line_gap=int(2 * sigma + 6),
+        line_gap=int(max(2 * sigma + 6, opts.scratch_gap_fraction * min(h, w))),
         rng=0,
     )
     found = []
