@@ -22,6 +22,7 @@ recorded in the output):
 
 from __future__ import annotations
 
+import os
 from dataclasses import asdict, dataclass
 
 import numpy as np
@@ -562,7 +563,6 @@ def _seeded_watershed(mask, strength, gap_px):
     about 2·gap_px wide), so two grains joined through a gap still get a seed each; the
     watershed of the boundary strength then draws the missing piece of boundary.
     """
-    from skimage.segmentation import watershed
 
     dist = ndi.distance_transform_edt(~mask).astype(np.float32)
     size = 2 * int(np.ceil(gap_px)) + 1
@@ -570,4 +570,32 @@ def _seeded_watershed(mask, strength, gap_px):
     # Peaks that touch (plateaus, medial ridges) form one seed; the merge step later
     # joins seeds of one grain whose dividing line does not lie on a boundary.
     markers, _ = ndi.label(peaks, structure=np.ones((3, 3)))
-    return watershed(strength, markers=markers).astype(np.int32)
+    return _watershed_in_strips(strength, markers)
+
+
+def _watershed_in_strips(strength, markers, strip_rows: int = 1024, margin_rows: int = 256):
+    """Seeded watershed, in horizontal strips on large images, two strips at a time.
+
+    Markers carry global labels, so strips need no stitching: each strip is flooded with
+    ``margin_rows`` of context above and below, and only its own rows are kept. A core
+    pixel comes out as in one whole-image flood unless its grain reaches further than the
+    margin beyond the strip (grains over 256 px tall in an image over 1536 rows). The
+    flooding releases the GIL, so two threads use both cores; the strips are also faster
+    one by one than a single flood of a large image (the priority queue stays small).
+    """
+    from concurrent.futures import ThreadPoolExecutor
+
+    from skimage.segmentation import watershed
+
+    h = strength.shape[0]
+    if h <= 1.5 * strip_rows:
+        return watershed(strength, markers=markers).astype(np.int32)
+
+    def flood(r0: int) -> np.ndarray:
+        r1 = min(h, r0 + strip_rows)
+        a, b = max(0, r0 - margin_rows), min(h, r1 + margin_rows)
+        return watershed(strength[a:b], markers=markers[a:b])[r0 - a : r1 - a].astype(np.int32)
+
+    starts = list(range(0, h, strip_rows))
+    with ThreadPoolExecutor(max_workers=min(2, os.cpu_count() or 1)) as pool:
+        return np.vstack(list(pool.map(flood, starts)))
