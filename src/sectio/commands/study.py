@@ -40,7 +40,8 @@ def study_command(ctx, study_file, out_dir, workers, scheduler, no_report):
         if state["bar"] is None:
             if total == 0:
                 return
-            state["bar"] = click.progressbar(length=total, label="fields", file=sys.stderr,
+            state["bar"] = click.progressbar(length=total, label="measuring fields",
+                                             file=sys.stderr,
                                              show_pos=True, show_eta=True)
             state["bar"].__enter__()
         state["bar"].update(done - state["bar"].pos)

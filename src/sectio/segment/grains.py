@@ -46,6 +46,7 @@ class GrainSegmentOptions:
     threshold_high: float | None = None  # None: Otsu on the boundary strength
     threshold_low: float | None = None  # None: noise level (percentile off the boundaries)
     noise_percentile: float = 99.5
+    min_low_fraction: float | None = None  # low ≥ this × high; None: 0.25 lines, 0.02 shades
     gap_px: float = 3.0  # seeds are interiors > gap_px from boundaries: bridges ~2·gap gaps
     merge_support: float = 0.3  # merge neighbours whose dividing line is < 30 % above low
     min_grain_area_px: float | None = None  # None: auto (5 % of the median grain area)
@@ -176,6 +177,14 @@ def _levels(
         lo = float(np.percentile(sample, opts.noise_percentile)) if sample.size else hi / 2
         if flat is not None:
             lo = min(lo, 1.5 * _white_noise_level(opts, sigma, _noise_sigma(flat)))
+    # Noise-free images (drawn or traced boundaries) have a noise level near zero; keep the
+    # low level at a fraction of the high one so grain interiors are never "boundary".
+    fraction = opts.min_low_fraction
+    if fraction is None:
+        # Ridge strength leaves a halo around a clean line; shade edges in flat-shaded
+        # maps (e.g. orientation maps) can be weak yet real, so they get a lower floor.
+        fraction = 0.02 if opts.contrast == "grains" else 0.25
+    lo = max(lo, fraction * hi)
     return float(hi), float(min(lo, hi))
 
 
