@@ -54,6 +54,7 @@ class GrainSegmentOptions:
     remove_scratches: bool = True
     scratch_min_length_fraction: float = 0.2
     scratch_side_ratio: float = 1.0
+    scratch_side_offset: float = 100.0  # side samples at most this × typical size away (off)
     scratch_votes: float = 0.3  # Hough votes needed, as a fraction of the minimum length
     scratch_gap_fraction: float = 0.0  # largest gap bridged along a scratch (of the shorter side)
     remove_pits: bool = True
@@ -253,7 +254,8 @@ def _scratch_lines(
         t = np.linspace(0, 1, n)
         xs, ys = x0 + t * (x1 - x0), y0 + t * (y1 - y0)
         nx, ny = -(y1 - y0) / n, (x1 - x0) / n
-        off = 3.0 * sigma + 3.0
+        # Sample the two sides just outside the line, but well inside the grains it crosses.
+        off = max(sigma + 2.0, min(3.0 * sigma + 3.0, opts.scratch_side_offset * typical_grain_px))
         a = ndi.map_coordinates(smooth, [ys + ny * off, xs + nx * off], order=1, mode="nearest")
         b = ndi.map_coordinates(smooth, [ys - ny * off, xs - nx * off], order=1, mode="nearest")
         a2 = ndi.map_coordinates(
