@@ -6,15 +6,15 @@ stays fast.
 
 from __future__ import annotations
 
+import io
 import json
-import os
 import re
-import tempfile
 from pathlib import Path
 
 import click
 
 from ..errors import InputError, OptionError
+from ..report._io import atomic_write_bytes
 from ..units import parse_stress_mpa
 
 OROWAN_CHOICES = ("line_tension", "classic", "ashby_orowan", "ashby_orowan_gladman")
@@ -37,19 +37,6 @@ CONVENTION_CHOICES = (
 
 class ResultFileError(InputError, ValueError):
     """A grains/particles JSON or a data CSV cannot be used; the message names the file."""
-
-
-def _write_atomic(path: Path, data: bytes) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
 
 
 def dump_json(doc: dict) -> bytes:
@@ -255,7 +242,7 @@ def strength_command(
         "materials": materials_file,
     }
     out = Path(out_dir) / "strength.json"
-    _write_atomic(out, dump_json(doc))
+    atomic_write_bytes(out, dump_json(doc))
     click.echo(format_summary(doc, units))
     click.echo(f"wrote {out}")
 
@@ -387,15 +374,13 @@ def fit_hall_petch_command(
             },
             base=base,
         )
-        _write_atomic(out / "hall_petch_material.toml", entry.encode("utf-8"))
+        atomic_write_bytes(out / "hall_petch_material.toml", entry.encode("utf-8"))
         doc["material_entry"] = {"file": "hall_petch_material.toml", "name": name, "base": base}
     fig = hall_petch_figure(fit)
-    out.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=out, suffix=".png")
-    os.close(fd)
-    fig.savefig(tmp, format="png", metadata={"Software": None})
-    os.replace(tmp, out / "hall_petch_fit.png")
-    _write_atomic(out / "hall_petch_fit.json", dump_json(doc))
+    png = io.BytesIO()
+    fig.savefig(png, format="png", metadata={"Software": None})
+    atomic_write_bytes(out / "hall_petch_fit.png", png.getvalue())
+    atomic_write_bytes(out / "hall_petch_fit.json", dump_json(doc))
     lo_s, hi_s = fit.sigma0_ci95_mpa
     lo_k, hi_k = fit.k_ci95_mpa_sqrt_m
     click.echo(

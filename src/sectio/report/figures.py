@@ -186,6 +186,15 @@ def _err(points, key, ci_key, scale=1.0):
     return np.asarray(xs), np.asarray(ys), np.asarray([lo, hi])
 
 
+def _power_law_curve(ax, t_max: float, initial: float, rate: float, power: int, label: str):
+    """Draw size(t) = (initial + rate·t)^(1/power), the fitted kinetic law of a series."""
+    t = np.linspace(0, t_max * 1.05, 100)
+    v = initial + rate * t
+    ok = v > 0
+    ax.plot(t[ok], v[ok] ** (1.0 / power), color=PALETTE["fit"], lw=1.2, label=label)
+    ax.legend(fontsize=7, frameon=False)
+
+
 def trend_figure(trend: dict):
     """Grain size, particle size and predicted yield against the trial variable (error bars
     are the 95 % intervals), with the coarsening / growth law drawn when it was fitted."""
@@ -208,12 +217,8 @@ def trend_figure(trend: dict):
             ax.set_title("Grain size", fontsize=9, color=INK)
             gg = trend.get("grain_growth")
             if gg:
-                t = np.linspace(0, x.max() * 1.05, 100)
-                d2 = gg["initial_size_squared_um2"] + gg["rate_um2_per_unit"] * t
-                ok = d2 > 0
-                ax.plot(t[ok], np.sqrt(d2[ok]), color=PALETTE["fit"], lw=1.2,
-                        label="d² − d0² = k·t")
-                ax.legend(fontsize=7, frameon=False)
+                _power_law_curve(ax, x.max(), gg["initial_size_squared_um2"],
+                                 gg["rate_um2_per_unit"], 2, "d² − d0² = k·t")
         elif kind == "particle":
             x, y, e = _err(pts, "mean_sphere_diameter_um", "mean_sphere_diameter_ci95_um",
                            scale=500.0)
@@ -222,12 +227,8 @@ def trend_figure(trend: dict):
             ax.set_title("Particle size (unfolded spheres)", fontsize=9, color=INK)
             co = trend.get("coarsening")
             if co:
-                t = np.linspace(0, x.max() * 1.05, 100)
-                r3 = co["initial_radius_cubed_nm3"] + co["rate_nm3_per_unit"] * t
-                ok = r3 > 0
-                ax.plot(t[ok], np.cbrt(r3[ok]), color=PALETTE["fit"], lw=1.2,
-                        label="LSW r³ − r0³ = K·t")
-                ax.legend(fontsize=7, frameon=False)
+                _power_law_curve(ax, x.max(), co["initial_radius_cubed_nm3"],
+                                 co["rate_nm3_per_unit"], 3, "LSW r³ − r0³ = K·t")
         else:
             x, y, e = _err(pts, "yield_median_mpa", "yield_ci95_mpa")
             ax.errorbar(x, y, yerr=e, fmt="D", color=PALETTE["yield"], capsize=4, ms=5)

@@ -124,15 +124,24 @@ def ridge_strength(
     return strength, normal.astype(np.float32)
 
 
+def strength_of_flat(
+    flat: np.ndarray, opts: GrainSegmentOptions, sigma: float, *, orientation: bool = False
+):
+    """Boundary strength of a flattened image at one scale: the ridge strength of dark (or
+    bright) lines, or the gradient magnitude for shade contrast (which has no orientation,
+    returned as None)."""
+    if opts.contrast == "grains":
+        grad = ndi.gaussian_gradient_magnitude(flat, sigma).astype(np.float32)
+        return (grad, None) if orientation else grad
+    return ridge_strength(flat, sigma, dark=opts.boundaries == "dark", orientation=orientation)
+
+
 def boundary_strength(
     image: np.ndarray, opts: GrainSegmentOptions, sigma_px: float | None = None
 ) -> np.ndarray:
     """Boundary-strength image (higher = more boundary-like) at one smoothing scale."""
     flat = flatten(image, opts.flatten_sigma_px)
-    sigma = sigma_px or opts.ridge_sigma_px or 1.5
-    if opts.contrast == "grains":
-        return ndi.gaussian_gradient_magnitude(flat, sigma).astype(np.float32)
-    return ridge_strength(flat, sigma, dark=opts.boundaries == "dark")
+    return strength_of_flat(flat, opts, sigma_px or opts.ridge_sigma_px or 1.5)
 
 
 def _noise_sigma(flat: np.ndarray) -> float:
@@ -145,10 +154,7 @@ def _white_noise_level(opts: GrainSegmentOptions, sigma: float, noise: float) ->
     """The noise percentile of the boundary strength of pure white noise of this level."""
     rng = np.random.default_rng(12345)
     sim = rng.normal(0.5, max(noise, 1e-6), size=(256, 256)).astype(np.float32)
-    if opts.contrast == "grains":
-        st = ndi.gaussian_gradient_magnitude(sim, sigma)
-    else:
-        st = ridge_strength(sim, sigma, dark=opts.boundaries == "dark")
+    st = strength_of_flat(sim, opts, sigma)
     return float(np.percentile(st[16:-16, 16:-16], opts.noise_percentile))
 
 
@@ -238,7 +244,7 @@ def _scratch_lines(
 
     candidates = skeletonize(strength > lo)
     smooth = ndi.gaussian_filter(flat, 2.0)
-    noise = 1.4826 * float(np.median(np.abs(flat[::2, 1::2] - flat[::2, :-1:2]))) / np.sqrt(2) / 4
+    noise = _noise_sigma(flat) / 4  # pixel noise after the 2-px smoothing, roughly
     lines = probabilistic_hough_line(
         candidates,
         threshold=int(min_len * opts.scratch_votes),
@@ -335,7 +341,7 @@ def _merge_unsupported(labels, on_boundary: np.ndarray, min_support: float):
     return lut[labels], int(n - uniq.size)
 
 
-def _absorb_small(labels, strength, min_area_px):
+def _absorb_small(labels, min_area_px):
     """Join each region below the size floor to the neighbour it shares most border with.
 
     Repeated until no region below the floor is left (or nothing changes), so a cluster of
@@ -402,7 +408,7 @@ def _scale_scores(crop: np.ndarray, opts: GrainSegmentOptions):
     noise = _noise_sigma(flat)
     out = []
     for sigma in opts.ridge_sigmas_px:
-        st = boundary_strength(crop, opts, sigma)
+        st = strength_of_flat(flat, opts, sigma)
         hi, lo = _levels(st, opts, sigma, flat)
         out.append((sigma, hi, lo, _white_noise_level(opts, sigma, noise)))
     return flat, out
@@ -498,12 +504,7 @@ def _segment_at_scale(
     looked for before the watershed, which then runs once."""
     from skimage.filters import apply_hysteresis_threshold
 
-    if opts.contrast == "grains":
-        strength = ndi.gaussian_gradient_magnitude(flat, sigma).astype(np.float32)
-    else:
-        strength, normal = ridge_strength(
-            flat, sigma, dark=opts.boundaries == "dark", orientation=True
-        )
+    strength, normal = strength_of_flat(flat, opts, sigma, orientation=True)
     if float(np.ptp(strength)) <= 1e-9:
         raise MeasurementError("the image shows no boundaries (no contrast); check the image")
     hi, lo = _levels(strength, opts, sigma, flat)
@@ -548,7 +549,7 @@ def _segment_at_scale(
         min_area = float(opts.min_grain_area_px)
     else:
         min_area = max(4.0, opts.min_grain_area_fraction * float(np.median(areas)))
-    labels, n_small = _absorb_small(labels, strength, min_area)
+    labels, n_small = _absorb_small(labels, min_area)
     labels = _relabel_sequential(labels)
     if labels.max() < 2:
         raise MeasurementError("fewer than two grains were found; check the boundary options")
