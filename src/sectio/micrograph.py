@@ -9,14 +9,15 @@ physical unit. Without any of these it refuses with a message that says how to g
 
 from __future__ import annotations
 
+import math
 import os
-import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from .errors import CalibrationError, ImageReadError, ImageWarning, MeasurementError, OptionError
+from ._decode import _finite_or_fill, decode_grey, require_regular_file, to_grey
+from .errors import CalibrationError, ImageReadError, MeasurementError, OptionError
 from .units import parse_length_um
 
 TIFF_SUFFIXES = {".tif", ".tiff"}
@@ -92,28 +93,6 @@ class Micrograph:
         }
 
 
-def _to_grey(arr: np.ndarray, path: str, notes: list[str]) -> np.ndarray:
-    arr = np.asarray(arr)
-    if arr.ndim == 3 and arr.shape[-1] in (3, 4):
-        rgb = arr[..., :3].astype(np.float64)
-        if not (
-            np.array_equal(rgb[..., 0], rgb[..., 1]) and np.array_equal(rgb[..., 1], rgb[..., 2])
-        ):
-            notes.append("colour image converted to grey (ITU-R BT.709 luminance)")
-        # Luminance weights of ITU-R BT.709 (as skimage.color.rgb2gray).
-        return rgb @ np.array([0.2125, 0.7154, 0.0721])
-    if arr.ndim == 3 and arr.shape[0] in (3, 4) and arr.shape[-1] > 4:
-        return _to_grey(np.moveaxis(arr, 0, -1), path, notes)
-    if arr.ndim == 3 and arr.shape[-1] == 2:  # grey + alpha
-        return arr[..., 0].astype(np.float64)
-    if arr.ndim != 2:
-        raise ImageReadError(
-            f"{path} has shape {arr.shape}, not a 2-D grey or RGB image; "
-            "export a single 2-D plane (grey or RGB) and try again."
-        )
-    return arr.astype(np.float64)
-
-
 def _tiff_pixel_size_um(tif, page) -> tuple[float | None, str]:
     """Pixel size from TIFF tags: resolution with a physical unit, or ImageJ 'unit'."""
     tags = page.tags
@@ -154,54 +133,6 @@ def _tiff_pixel_size_um(tif, page) -> tuple[float | None, str]:
     return sx, "TIFF resolution tags"
 
 
-def _read_tiff(path: str, notes: list[str]):
-    import tifffile
-
-    try:
-        with tifffile.TiffFile(path) as tif:
-            pages = tif.pages
-            if len(pages) == 0:
-                raise ImageReadError(f"{path} holds no image pages; re-export it as a TIFF image.")
-            if len(pages) > 1:
-                warnings.warn(
-                    f"{path} has {len(pages)} pages; using page 1 only.", ImageWarning, stacklevel=3
-                )
-                notes.append(f"multi-page TIFF ({len(pages)} pages): page 1 used")
-            page = pages[0]
-            arr = page.asarray()
-            size, source = _tiff_pixel_size_um(tif, page)
-    except ImageReadError:
-        raise
-    except CalibrationError:
-        raise
-    except Exception as exc:  # tifffile raises many types for corrupt files
-        raise ImageReadError(
-            f"{path} could not be read as a TIFF ({type(exc).__name__}); "
-            "check that the file is complete and not corrupt, or re-export it."
-        ) from None
-    return arr, size, source
-
-
-def _read_other(path: str):
-    from PIL import Image, UnidentifiedImageError
-
-    try:
-        with Image.open(path) as im:
-            im.load()
-            if im.mode in ("I;16", "I;16B", "I;16L", "I", "F"):
-                arr = np.asarray(im)
-            elif im.mode in ("L", "RGB", "RGBA", "LA"):
-                arr = np.asarray(im)
-            else:
-                arr = np.asarray(im.convert("RGB"))
-    except (UnidentifiedImageError, OSError, ValueError) as exc:
-        raise ImageReadError(
-            f"{path} could not be read as an image ({type(exc).__name__}); "
-            "check that the file is complete and not corrupt, or re-export it as TIFF or PNG."
-        ) from None
-    return arr
-
-
 def from_array(
     image,
     *,
@@ -212,7 +143,7 @@ def from_array(
 ) -> Micrograph:
     """Wrap a 2-D (or RGB) array as a :class:`Micrograph`, scaled to [0, 1]."""
     notes: list[str] = []
-    grey = _to_grey(np.asarray(image), path, notes)
+    grey = _finite_or_fill(to_grey(np.asarray(image), path, notes), path, notes)
     return _finish(grey, pixel_size_um, pixel_size_source, path, crop_bottom, notes, {})
 
 
@@ -231,18 +162,15 @@ def _finish(grey, pixel_size_um, source, path, crop_bottom, notes, calibration) 
             f"{path} is only {grey.shape[1]} x {grey.shape[0]} pixels; "
             "use an image at least 16 pixels on each side."
         )
-    finite = np.isfinite(grey)
-    if not finite.all():
-        if not finite.any():
-            raise MeasurementError(f"{path} holds no finite pixel values; re-export the image.")
-        grey = np.where(finite, grey, np.nanmedian(grey[finite]))
-        notes.append("non-finite pixels replaced by the median grey level")
     lo, hi = float(grey.min()), float(grey.max())
     if hi - lo <= 1e-12 * max(1.0, abs(hi)):
         raise MeasurementError(
             f"{path} is blank (every pixel has the value {lo:g}); check the file or the exposure."
         )
-    img = ((grey - lo) / (hi - lo)).astype(np.float32)
+    if math.isfinite(hi - lo):
+        img = ((grey - lo) / (hi - lo)).astype(np.float32)
+    else:  # values near the float64 limits: halve first so that the span stays finite
+        img = ((grey * 0.5 - lo * 0.5) / (hi * 0.5 - lo * 0.5)).astype(np.float32)
     if not (pixel_size_um and np.isfinite(pixel_size_um) and pixel_size_um > 0):
         raise CalibrationError(f"{path}: pixel size must be a positive number of micrometres.")
     return Micrograph(
@@ -263,6 +191,7 @@ def load(
     pixel_size: str | float | None = None,
     crop_bottom: int = 0,
     scale_bar: str | float | None = None,
+    max_image_memory: str | int | None = None,
 ) -> Micrograph:
     """Read a micrograph file and its pixel size.
 
@@ -277,6 +206,9 @@ def load(
     scale_bar : str or float, optional
         Length of a scale bar drawn in the info strip (``"2um"``); the bar is found and
         measured, and the strip below the image is excluded.
+    max_image_memory : str or int, optional
+        Budget of decoded float pixels (``"4GiB"``); default ``$SECTIO_MAX_IMAGE_MEMORY``
+        or 1.5 GiB. The file's header is checked against it before anything is decoded.
 
     Returns
     -------
@@ -288,21 +220,18 @@ def load(
         raise ImageReadError(f"Cannot find the image file {path}; check the path and spelling.")
     if p.is_dir():
         raise ImageReadError(f"{path} is a folder, not an image; name the image files inside it.")
+    require_regular_file(path)
     suffix = p.suffix.lower()
     if suffix not in TIFF_SUFFIXES | OTHER_SUFFIXES:
         raise ImageReadError(
             f"{path}: unsupported file type {suffix or '(none)'}; "
             f"use one of {', '.join(SUPPORTED)}."
         )
-    notes: list[str] = []
-    tag_size, tag_source = None, ""
-    if suffix in TIFF_SUFFIXES:
-        arr, tag_size, tag_source = _read_tiff(path, notes)
-        if tag_size is None and tag_source:
-            notes.append(tag_source)
-    else:
-        arr = _read_other(path)
-    grey = _to_grey(arr, path, notes)
+    grey, tag_size, tag_source, notes = decode_grey(
+        path, tiff=suffix in TIFF_SUFFIXES, max_image_memory=max_image_memory,
+        tiff_tags=_tiff_pixel_size_um)
+    if tag_size is None and tag_source:
+        notes.append(tag_source)
     calibration: dict = {}
     if pixel_size is not None:
         size = parse_length_um(

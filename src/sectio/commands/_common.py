@@ -18,3 +18,24 @@ def overlay_name(path: str, used: set[str]) -> str:
 def fmt(value, spec: str) -> str:
     """Format a number for a printed table; ``-`` for a missing value."""
     return "-" if value is None else format(value, spec)
+
+
+def _set_image_memory(ctx, param, value):
+    if value is not None:
+        import os
+
+        from .._decode import ENV_BUDGET, parse_bytes
+
+        os.environ[ENV_BUDGET] = str(parse_bytes(value))  # workers inherit it
+    return value
+
+
+def max_image_memory_option(f):
+    """``--max-image-memory``: the budget of decoded pixels checked before any decode."""
+    import click
+
+    return click.option(
+        "--max-image-memory", default=None, expose_value=False, is_eager=True,
+        callback=_set_image_memory,
+        help="Largest decoded image accepted, e.g. 4GiB [default: 1.5GiB of float pixels, "
+             "or $SECTIO_MAX_IMAGE_MEMORY].")(f)

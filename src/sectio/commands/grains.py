@@ -15,7 +15,7 @@ import click
 
 from ..errors import CalibrationError, InputError, OptionError
 from ._common import fmt as _fmt
-from ._common import overlay_name
+from ._common import max_image_memory_option, overlay_name
 
 CSV_COLUMNS = [
     "image",
@@ -125,6 +125,7 @@ def _parse_angles(text: str) -> tuple[float, ...]:
     type=click.Path(file_okay=False),
     help="Folder for grains.json, grains.csv and the overlays.",
 )
+@max_image_memory_option
 @click.pass_context
 def grains_command(
     ctx,

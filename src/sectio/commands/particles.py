@@ -15,7 +15,7 @@ import click
 
 from ..errors import CalibrationError, InputError, OptionError
 from ._common import fmt as _fmt
-from ._common import overlay_name
+from ._common import max_image_memory_option, overlay_name
 
 CSV_COLUMNS = ["image", "particle", "area_um2", "ecd_um", "feret_max_um", "feret_min_um",
                "aspect_ratio", "centroid_x_um", "centroid_y_um", "cut_by_edge", "weight"]
@@ -46,6 +46,7 @@ CSV_COLUMNS = ["image", "particle", "area_um2", "ecd_um", "feret_max_um", "feret
               help="Folder for particles.json, particles.csv and the pictures.")
 @click.option("--seed", type=int, default=0, show_default=True,
               help="Seed of the point-count grid offset and the bootstrap.")
+@max_image_memory_option
 @click.pass_context
 def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, threshold,
                       min_size, no_split, foil_thickness, out_dir, seed):

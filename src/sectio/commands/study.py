@@ -11,6 +11,8 @@ import sys
 
 import click
 
+from ._common import max_image_memory_option
+
 
 @click.command("study", context_settings={"help_option_names": ["-h", "--help"]})
 @click.argument("study_file", type=click.Path(dir_okay=False))
@@ -21,6 +23,7 @@ import click
 @click.option("--scheduler", default=None,
               help="Run the fields on a Dask cluster, tcp://HOST:PORT (needs sectio[dask]).")
 @click.option("--no-report", is_flag=True, help="Skip report.html and report.pdf.")
+@max_image_memory_option
 @click.pass_context
 def study_command(ctx, study_file, out_dir, workers, scheduler, no_report):
     """Measure every field of every specimen named in STUDY_FILE and write a report.
