@@ -32,6 +32,10 @@ class StudyFileError(InputError, ValueError):
     """A study file is malformed; the message names the line and key."""
 
 
+class ResultFileError(InputError, ValueError):
+    """A grains/particles JSON or a data CSV cannot be used; the message names the file."""
+
+
 class SectioWarning(UserWarning):
     """Base class of sectio's warnings."""
 

@@ -14,15 +14,19 @@ import numpy as np
 
 from .errors import DegenerateDataWarning, OptionError
 from .micrograph import Micrograph
-from .segment.grains import GrainSegmentation, GrainSegmentOptions, segment_grains
-from .stereology._fieldstats import field_statistics, stats_to_dict
-from .stereology._grainsize import (
+from .segment import GrainSegmentation, GrainSegmentOptions, segment_grains
+from .stereology import (
+    InterceptCount,
     astm_g_from_grains_per_mm2,
     astm_g_from_intercept_um,
+    count_crossings,
+    edge_and_corner_labels,
+    field_statistics,
+    grain_areas_px,
     iso643_g_from_grains_per_mm2,
+    planimetric_count,
+    stats_to_dict,
 )
-from .stereology._intercepts import InterceptCount, count_crossings
-from .stereology._planimetric import edge_and_corner_labels, grain_areas_px, planimetric_count
 from .units import parse_length_um
 
 SCHEMA = "sectio/grains@1"

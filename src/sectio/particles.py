@@ -24,16 +24,19 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .micrograph import Micrograph
-from .segment.particles import MOSTLY_PARTICLE, ParticleSegmentation, segment_particles
-from .stereology._particles import (
+from .segment import MOSTLY_PARTICLE, ParticleSegmentation, segment_particles
+from .stereology import (
     ParticleTable,
+    SizeDistribution,
+    Unfolding,
+    foil_volume_fraction,
     intercept_density,
     measure_labels,
     nearest_neighbour_distances,
     point_count,
+    size_distribution,
+    unfold_sections,
 )
-from .stereology._sizes import SizeDistribution, size_distribution
-from .stereology._unfolding import Unfolding, foil_volume_fraction, unfold_sections
 
 __all__ = ["ParticleField", "measure_particles", "summarize_particles"]
 
@@ -286,6 +289,6 @@ def measure_particles(
 
 def summarize_particles(fields, *, bootstrap: int = 200, seed: int = 0) -> dict:
     """Statistics over fields (see :mod:`sectio.stereology._particle_summary`)."""
-    from .stereology._particle_summary import summarize
+    from .stereology import summarize_particle_fields
 
-    return summarize(list(fields), bootstrap=bootstrap, seed=seed)
+    return summarize_particle_fields(list(fields), bootstrap=bootstrap, seed=seed)

@@ -2,6 +2,7 @@
 
 ``parse_length_um("0.5um")`` -> 0.5; accepts m, mm, um/µm/μm/micron, nm, in (inch).
 ``parse_stress_mpa("45 ksi")`` -> 310.26...; accepts Pa, kPa, MPa, GPa, psi, ksi.
+``parse_value_sd("50+-10 MPa", what="--friction")`` -> (50.0, 10.0).
 """
 
 from __future__ import annotations
@@ -86,3 +87,33 @@ def parse_stress_mpa(text: str | float, *, what: str = "stress") -> float:
 def mpa_to_ksi(value_mpa: float) -> float:
     """MPa to ksi (1 ksi = 6.894757 MPa)."""
     return value_mpa / _STRESS_TO_MPA["ksi"]
+
+
+def parse_value_sd(
+    text: str | None, *, what: str, stress: bool = True
+) -> tuple[float, float] | None:
+    """``'50'``, ``'50MPa'``, ``'50+-10'`` or ``'50±10 ksi'`` -> (value, sd) or None.
+
+    Stresses go through :func:`parse_stress_mpa` (a bare number is MPa); a unit written
+    after the sd applies to the value too. With ``stress=False`` plain numbers are read.
+    """
+    if text is None:
+        return None
+    parts = [p.strip() for p in str(text).replace("±", "+-").split("+-")]
+    if len(parts) > 2 or not all(parts):
+        raise OptionError(f"Cannot read {what} {text!r}; write VALUE or VALUE+-SD, e.g. 50+-10.")
+    if stress:
+        unit = re.sub(r"^[\s\d.eE+-]+", "", parts[-1])
+        if unit and not re.sub(r"^[\s\d.eE+-]+", "", parts[0]):
+            parts[0] += unit
+        values = [parse_stress_mpa(p, what=what) for p in parts]
+    else:
+        try:
+            values = [float(p) for p in parts]
+        except ValueError:
+            raise OptionError(
+                f"Cannot read {what} {text!r}; write a number or VALUE+-SD, e.g. 1e14+-2e13."
+            ) from None
+    if len(values) == 2 and values[1] < 0:
+        raise OptionError(f"The uncertainty in {what} {text!r} must not be negative.")
+    return (values[0], values[1] if len(values) == 2 else 0.0)

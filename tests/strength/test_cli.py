@@ -6,15 +6,13 @@ import pytest
 from click.testing import CliRunner
 
 from sectio.commands.strength import (
-    ResultFileError,
     fit_hall_petch_command,
     materials_command,
-    parse_value_sd,
     strength_command,
 )
-from sectio.errors import OptionError
+from sectio.errors import OptionError, ResultFileError
 from sectio.strength import MaterialsFileError, hall_petch_mpa
-from sectio.units import mpa_to_ksi
+from sectio.units import mpa_to_ksi, parse_value_sd
 
 GRAINS = {"schema": "sectio/grains@1",
           "summary": {"n_fields": 10, "mean_intercept_um": 12.0,

@@ -155,7 +155,7 @@ def grains_command(
     """
     from ..grains import SCHEMA, make_options, measure_grains, summarize_grains
     from ..micrograph import load
-    from ..report._io import write_csv, write_json
+    from ..report import write_csv, write_json
     from ..report.grains import write_overlay
 
     opts = make_options(

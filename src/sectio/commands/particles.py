@@ -56,7 +56,7 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
     """
     from ..micrograph import load
     from ..particles import SCHEMA, measure_particles, summarize_particles
-    from ..report._io import write_csv, write_json
+    from ..report import write_csv, write_json
     from ..report.particles import write_overlay_png, write_size_distribution_png
     from ..units import parse_length_um
 

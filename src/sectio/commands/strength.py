@@ -8,42 +8,20 @@ from __future__ import annotations
 
 import io
 import json
-import re
 from pathlib import Path
 
 import click
 
-from ..errors import InputError, OptionError
-from ..report._io import atomic_write_bytes
-from ..units import parse_stress_mpa
-
-OROWAN_CHOICES = ("line_tension", "classic", "ashby_orowan", "ashby_orowan_gladman")
-SPACING_CHOICES = (
-    "planar_edge",
-    "planar_centre",
-    "spheres_edge_rms",
-    "spheres_edge_mean",
-    "spheres_centre",
+from ..errors import ResultFileError
+from ..report import atomic_write_bytes, write_json
+from ..strength.choices import (
+    CONVENTION_CHOICES,
+    OROWAN_CHOICES,
+    SCOPE_CHOICES,
+    SPACING_CHOICES,
+    SUPERPOSITION_CHOICES,
 )
-CONVENTION_CHOICES = (
-    "mean_lineal_intercept",
-    "sphere_diameter",
-    "mendelson_diameter",
-    "truncated_octahedron_diameter",
-    "section_ecd_hexagons",
-    "astm_sqrt_mean_area",
-)
-
-
-class ResultFileError(InputError, ValueError):
-    """A grains/particles JSON or a data CSV cannot be used; the message names the file."""
-
-
-def dump_json(doc: dict) -> bytes:
-    """Deterministic JSON bytes (sorted keys, full float precision)."""
-    return (
-        json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
-    ).encode("utf-8")
+from ..units import parse_value_sd
 
 
 def _read_summary(path: str, schema: str) -> dict:
@@ -65,34 +43,6 @@ def _read_summary(path: str, schema: str) -> dict:
     if not isinstance(doc.get("summary"), dict):
         raise ResultFileError(f"{path!r} has no 'summary' object; re-run the measurement.")
     return doc["summary"]
-
-
-def parse_value_sd(text: str | None, *, what: str, stress: bool = True):
-    """``'50'``, ``'50MPa'``, ``'50+-10'`` or ``'50±10 ksi'`` -> (value, sd) or None.
-
-    Stresses go through :func:`sectio.units.parse_stress_mpa` (a bare number is MPa); a unit
-    written after the sd applies to the value too.
-    """
-    if text is None:
-        return None
-    parts = [p.strip() for p in str(text).replace("±", "+-").split("+-")]
-    if len(parts) > 2 or not all(parts):
-        raise OptionError(f"Cannot read {what} {text!r}; write VALUE or VALUE+-SD, e.g. 50+-10.")
-    if stress:
-        unit = re.sub(r"^[\s\d.eE+-]+", "", parts[-1])
-        if unit and not re.sub(r"^[\s\d.eE+-]+", "", parts[0]):
-            parts[0] += unit
-        values = [parse_stress_mpa(p, what=what) for p in parts]
-    else:
-        try:
-            values = [float(p) for p in parts]
-        except ValueError:
-            raise OptionError(
-                f"Cannot read {what} {text!r}; write a number or VALUE+-SD, e.g. 1e14+-2e13."
-            ) from None
-    if len(values) == 2 and values[1] < 0:
-        raise OptionError(f"The uncertainty in {what} {text!r} must not be negative.")
-    return (values[0], values[1] if len(values) == 2 else 0.0)
 
 
 @click.command("strength")
@@ -147,7 +97,7 @@ def parse_value_sd(text: str | None, *, what: str, stress: bool = True):
 )
 @click.option(
     "--superposition",
-    type=click.Choice(["linear", "rss", "power"]),
+    type=click.Choice(SUPERPOSITION_CHOICES),
     default="linear",
     show_default=True,
     help="How obstacle terms combine.",
@@ -155,7 +105,7 @@ def parse_value_sd(text: str | None, *, what: str, stress: bool = True):
 @click.option("--exponent", type=float, help="q of the power superposition (1 to 2).")
 @click.option(
     "--scope",
-    type=click.Choice(["obstacles", "all_strengthening"]),
+    type=click.Choice(SCOPE_CHOICES),
     default="obstacles",
     show_default=True,
     help="Terms the superposition rule combines (the rest add linearly).",
@@ -242,7 +192,7 @@ def strength_command(
         "materials": materials_file,
     }
     out = Path(out_dir) / "strength.json"
-    atomic_write_bytes(out, dump_json(doc))
+    write_json(out, doc, sort_keys=True)
     click.echo(format_summary(doc, units))
     click.echo(f"wrote {out}")
 
@@ -380,7 +330,7 @@ def fit_hall_petch_command(
     png = io.BytesIO()
     fig.savefig(png, format="png", metadata={"Software": None})
     atomic_write_bytes(out / "hall_petch_fit.png", png.getvalue())
-    atomic_write_bytes(out / "hall_petch_fit.json", dump_json(doc))
+    write_json(out / "hall_petch_fit.json", doc, sort_keys=True)
     lo_s, hi_s = fit.sigma0_ci95_mpa
     lo_k, hi_k = fit.k_ci95_mpa_sqrt_m
     click.echo(

@@ -102,11 +102,14 @@ def synth_grains_command(
     """
     import numpy as np
 
-    from ..report._io import write_json
-    from ..stereology._grainsize import astm_g_from_grains_per_mm2, astm_g_from_intercept_um
-    from ..stereology._intercepts import count_crossings
-    from ..stereology._planimetric import planimetric_count
-    from ..synth._render import write_calibrated_tiff
+    from ..report import write_json
+    from ..stereology import (
+        astm_g_from_grains_per_mm2,
+        astm_g_from_intercept_um,
+        count_crossings,
+        planimetric_count,
+    )
+    from ..synth import write_calibrated_tiff
     from ..synth.grains import synthetic_grains
     from ..units import parse_length_um
 

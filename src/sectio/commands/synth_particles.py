@@ -37,9 +37,8 @@ def synth_particles_command(out_dir, fields, size_px, pixel_size, fraction, medi
     """Synthetic particle micrographs (sections through log-normal spheres) with truth."""
     import numpy as np
 
-    from ..report._io import atomic_write_bytes, write_json
-    from ..report.particles import _png_bytes
-    from ..synth._render import write_calibrated_tiff
+    from ..report import atomic_write_bytes, png_bytes, write_json
+    from ..synth import write_calibrated_tiff
     from ..synth.particles import add_info_strip, section_image, sphere_population
     from ..units import parse_length_um
 
@@ -65,7 +64,7 @@ def synth_particles_command(out_dir, fields, size_px, pixel_size, fraction, medi
             img = add_info_strip(img, pixel_size_um=px, bar_um=bar_um, rng=rng)
         write_calibrated_tiff(out / f"{name}.tif", img, px,
                               description="sectio synthetic particles (Harrow Forge Ltd demo)")
-        atomic_write_bytes(out / f"{name}_mask.png", _png_bytes(sec.mask.astype(np.uint8) * 255))
+        atomic_write_bytes(out / f"{name}_mask.png", png_bytes(sec.mask.astype(np.uint8) * 255))
         inside = sec.discs_in_field()
         truth["fields"].append({
             "image": f"{name}.tif", "mask": f"{name}_mask.png",

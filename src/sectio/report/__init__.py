@@ -1,5 +1,24 @@
-"""Writers (JSON, CSV), overlays, figures and the HTML/PDF report; all render from to_dict()."""
+"""Writers (JSON, CSV, PNG), overlays, figures and the HTML/PDF report.
 
-from ._io import atomic_write_bytes, atomic_write_text, write_csv, write_json
+Everything is rendered from ``to_dict()`` documents; nothing here measures.
+"""
 
-__all__ = ["atomic_write_bytes", "atomic_write_text", "write_csv", "write_json"]
+from ._io import (
+    atomic_write_bytes,
+    atomic_write_text,
+    jsonable,
+    png_bytes,
+    to_json_text,
+    write_csv,
+    write_json,
+)
+
+__all__ = [
+    "atomic_write_bytes",
+    "atomic_write_text",
+    "jsonable",
+    "png_bytes",
+    "to_json_text",
+    "write_csv",
+    "write_json",
+]

@@ -1,6 +1,9 @@
-"""Atomic file writing: a temp file in the same folder, then ``os.replace``.
+"""Atomic file writing (a temp file in the same folder, then ``os.replace``) and the one
+JSON writer of the project.
 
 An interrupted run never leaves a half-written result: either the old file or the new one.
+Every JSON file sectio writes goes through :func:`to_json_text` (NaN/inf -> null, numpy
+scalars -> Python numbers).
 """
 
 from __future__ import annotations
@@ -38,14 +41,16 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
 
 
 def atomic_write_text(path: str | os.PathLike, text: str) -> Path:
+    """Write ``text`` (UTF-8) to ``path`` atomically."""
     return atomic_write_bytes(path, text.encode("utf-8"))
 
 
-def _jsonable(obj):
+def jsonable(obj):
+    """``obj`` with numpy scalars/arrays, tuples and paths made JSON-ready; NaN/inf -> None."""
     if isinstance(obj, dict):
-        return {str(k): _jsonable(v) for k, v in obj.items()}
+        return {str(k): jsonable(v) for k, v in obj.items()}
     if isinstance(obj, (list, tuple)):
-        return [_jsonable(v) for v in obj]
+        return [jsonable(v) for v in obj]
     if isinstance(obj, (np.floating, float)):
         v = float(obj)
         return v if math.isfinite(v) else None
@@ -54,20 +59,34 @@ def _jsonable(obj):
     if isinstance(obj, np.bool_):
         return bool(obj)
     if isinstance(obj, np.ndarray):
-        return _jsonable(obj.tolist())
+        return jsonable(obj.tolist())
     if isinstance(obj, Path):
         return str(obj)
     return obj
 
 
-def to_json_text(doc: dict) -> str:
+def to_json_text(doc: dict, *, indent: int = 2, sort_keys: bool = False) -> str:
     """Deterministic JSON: NaN/inf become null, numpy scalars become Python numbers."""
-    return json.dumps(_jsonable(doc), indent=2, sort_keys=False, ensure_ascii=False) + "\n"
+    return (
+        json.dumps(jsonable(doc), indent=indent, sort_keys=sort_keys, ensure_ascii=False)
+        + "\n"
+    )
 
 
-def write_json(path: str | os.PathLike, doc: dict) -> Path:
-    """Write a JSON document atomically (NaN written as null)."""
-    return atomic_write_text(path, to_json_text(doc))
+def write_json(
+    path: str | os.PathLike, doc: dict, *, indent: int = 2, sort_keys: bool = False
+) -> Path:
+    """Write a JSON document atomically (NaN written as null); see :func:`to_json_text`."""
+    return atomic_write_text(path, to_json_text(doc, indent=indent, sort_keys=sort_keys))
+
+
+def png_bytes(rgb: np.ndarray) -> bytes:
+    """PNG bytes of an RGB (or grey) uint8 array (Pillow, default compression)."""
+    from PIL import Image
+
+    buf = io.BytesIO()
+    Image.fromarray(np.ascontiguousarray(rgb)).save(buf, format="PNG")
+    return buf.getvalue()
 
 
 def write_csv(
@@ -89,7 +108,7 @@ def write_csv(
 
 
 def _csv_value(v):
-    v = _jsonable(v)
+    v = jsonable(v)
     if v is None:
         return ""
     if isinstance(v, float):

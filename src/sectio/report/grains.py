@@ -52,7 +52,7 @@ def _line_pixels(shape, angle: float, spacing: int, max_lines: int):
 
 def grain_overlay(field, *, max_lines_per_direction: int = 12) -> np.ndarray:
     """RGB uint8 overlay: micrograph in grey, boundaries, a subset of test lines, crossings."""
-    from ..stereology._intercepts import circle_centres
+    from ..stereology import circle_centres
 
     img = field.micrograph.image
     labels = field.labels

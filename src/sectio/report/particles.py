@@ -11,22 +11,14 @@ import os
 
 import numpy as np
 
-from ._io import atomic_write_bytes
+from ._io import atomic_write_bytes, png_bytes
 
 __all__ = ["write_overlay_png", "write_size_distribution_png"]
 
 
-def _png_bytes(rgb: np.ndarray) -> bytes:
-    from PIL import Image
-
-    buf = io.BytesIO()
-    Image.fromarray(np.ascontiguousarray(rgb)).save(buf, format="PNG")
-    return buf.getvalue()
-
-
 def write_overlay_png(path: str | os.PathLike, field) -> None:
     """Overlay of one :class:`sectio.particles.ParticleField` (outlines, split lines)."""
-    atomic_write_bytes(path, _png_bytes(field.overlay()))
+    atomic_write_bytes(path, png_bytes(field.overlay()))
 
 
 def write_size_distribution_png(path: str | os.PathLike, fields, summary: dict) -> None:
@@ -38,7 +30,7 @@ def write_size_distribution_png(path: str | os.PathLike, fields, summary: dict) 
     """
     from matplotlib.figure import Figure  # Agg canvas; pyplot is never imported
 
-    from ..stereology._sizes import size_distribution
+    from ..stereology import size_distribution
 
     ecd = np.concatenate([f.table.ecd_um[~f.table.edge] for f in fields]) if fields else []
     wts = np.concatenate([f.table.weight[~f.table.edge] for f in fields]) if fields else []

@@ -1,9 +1,10 @@
 """Segmentation: micrograph -> grain label map, or particle mask and labels."""
 
 from .grains import GrainSegmentation, GrainSegmentOptions, segment_grains
-from .particles import ParticleSegmentation, segment_particles
+from .particles import MOSTLY_PARTICLE, ParticleSegmentation, segment_particles
 
 __all__ = [
+    "MOSTLY_PARTICLE",
     "GrainSegmentOptions",
     "GrainSegmentation",
     "ParticleSegmentation",

@@ -1,23 +1,29 @@
 """Grain boundaries and grain label maps from etched micrographs.
 
-Pipeline (every size and threshold is an option of :class:`GrainSegmentOptions` and is
-recorded in the output):
+Pipeline (every size and threshold is an option of :class:`GrainSegmentOptions`; the
+values used are recorded in :class:`GrainSegmentation`):
 
 1. **Flatten** uneven illumination: divide by a wide Gaussian blur of the image.
-2. **Denoise** with a small Gaussian.
-3. **Boundary strength**: for dark (or bright) boundary grooves a morphological black
-   (white) top-hat with a disc somewhat wider than a groove; for shade contrast between
-   grains (``contrast="grains"``), the Sobel gradient magnitude.
-4. **Threshold** with hysteresis: the high level from Otsu's method on the strength
-   image, the low level a fraction of it, so that faint boundary segments joined to
-   clear ones are kept.
-5. **Pits** (small isolated dark blobs) are dropped from the boundary mask;
-   **scratches** (long straight lines that cut across grains without a change of shade)
-   are found with a probabilistic Hough transform and dropped.
-6. **Grains**: seeds from the distance transform of the grain interiors (h-maxima), then a
-   seeded watershed on the boundary strength. Seeds see through small gaps in boundaries.
-7. **Merge** neighbouring regions whose dividing line is mostly not on a detected
-   boundary (splits of elongated grains), and absorb regions below a size floor.
+2. **Scale**: on a central crop (at most 512²) the boundary strength is computed at each
+   of ``ridge_sigmas_px``; the scale with the best boundary/noise ratio is taken, then
+   kept below 1/``scale_to_spacing`` of the closest boundary spacing found by a trial
+   segmentation of the crop. An image where nothing stands out from the noise is refused
+   (:class:`~sectio.errors.MeasurementError`).
+3. **Boundary strength** at that scale: the larger Hessian eigenvalue (scale-normalised
+   ridge strength) for dark or bright boundary lines; the gradient magnitude for shade
+   contrast between grains (``contrast="grains"``).
+4. **Threshold** with hysteresis: the high level from Otsu's method, the low level the
+   noise level off the boundaries (capped by the same percentile for simulated white
+   noise of the measured pixel noise, floored at a fraction of the high level for
+   noise-free drawings).
+5. **Pits** (small isolated blobs) are dropped from the boundary mask; **scratches** (long
+   straight Hough segments with the same shade on both sides) are removed where the local
+   line direction follows them.
+6. **Grains**: seeds at local maxima of the distance to the boundary mask (they see
+   through gaps up to about twice ``gap_px``), then a seeded watershed of the boundary
+   strength (in horizontal strips, two threads, on tall images).
+7. **Merge** neighbouring regions whose dividing line lies mostly below the low level, and
+   join regions below the size floor to the neighbour they share most border with.
 """
 
 from __future__ import annotations
@@ -134,14 +140,6 @@ def strength_of_flat(
         grad = ndi.gaussian_gradient_magnitude(flat, sigma).astype(np.float32)
         return (grad, None) if orientation else grad
     return ridge_strength(flat, sigma, dark=opts.boundaries == "dark", orientation=orientation)
-
-
-def boundary_strength(
-    image: np.ndarray, opts: GrainSegmentOptions, sigma_px: float | None = None
-) -> np.ndarray:
-    """Boundary-strength image (higher = more boundary-like) at one smoothing scale."""
-    flat = flatten(image, opts.flatten_sigma_px)
-    return strength_of_flat(flat, opts, sigma_px or opts.ridge_sigma_px or 1.5)
 
 
 def _noise_sigma(flat: np.ndarray) -> float:
@@ -430,11 +428,6 @@ def _check_boundaries_present(scores, opts: GrainSegmentOptions) -> None:
         )
 
 
-def choose_ridge_sigma(image: np.ndarray, opts: GrainSegmentOptions) -> float:
-    """See :func:`_choose_scale`; returns the scale only."""
-    return _choose_scale(image, opts)[0]
-
-
 def _choose_scale(image: np.ndarray, opts: GrainSegmentOptions) -> tuple[float, float | None]:
     """The smoothing scale for the boundary strength, judged on a central crop (≤ 512²).
 
@@ -445,7 +438,7 @@ def _choose_scale(image: np.ndarray, opts: GrainSegmentOptions) -> tuple[float, 
     per-direction mean intercept of a trial segmentation of the crop. Raises
     :class:`MeasurementError` when no scale shows boundaries above the noise.
     """
-    from ..stereology._intercepts import count_crossings
+    from ..stereology import count_crossings
 
     crop = _crop(image)
     flat, scores = _scale_scores(crop, opts)

@@ -23,7 +23,8 @@ from ._grainsize import (
     intercept_um_from_astm_g,
     iso643_g_from_grains_per_mm2,
 )
-from ._intercepts import InterceptCount, count_crossings, mean_lineal_intercept
+from ._intercepts import InterceptCount, circle_centres, count_crossings, mean_lineal_intercept
+from ._particle_summary import summarize_particle_fields
 from ._particles import (
     ParticleTable,
     feret_diameters,
@@ -33,7 +34,12 @@ from ._particles import (
     nearest_neighbour_distances,
     point_count,
 )
-from ._planimetric import PlanimetricCount, grain_areas_px, planimetric_count
+from ._planimetric import (
+    PlanimetricCount,
+    edge_and_corner_labels,
+    grain_areas_px,
+    planimetric_count,
+)
 from ._sizes import SizeDistribution, lognormal_fit, size_distribution, weighted_quantile
 from ._unfolding import Unfolding, foil_volume_fraction, saltykov_matrix, unfold_sections
 
@@ -47,7 +53,9 @@ __all__ = [
     "astm_g_from_count_at_magnification",
     "astm_g_from_grains_per_mm2",
     "astm_g_from_intercept_um",
+    "circle_centres",
     "count_crossings",
+    "edge_and_corner_labels",
     "feret_diameters",
     "field_statistics",
     "foil_volume_fraction",
@@ -68,6 +76,7 @@ __all__ = [
     "split_unit",
     "stat_key",
     "stats_to_dict",
+    "summarize_particle_fields",
     "t_critical",
     "unfold_sections",
     "weighted_quantile",

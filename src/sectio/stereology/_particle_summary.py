@@ -85,7 +85,7 @@ def _pooled_unfolding(fields, rng, n_boot):
     return unf, None, None, ecd, wts
 
 
-def summarize(fields, *, bootstrap: int = 200, seed: int = 0) -> dict:
+def summarize_particle_fields(fields, *, bootstrap: int = 200, seed: int = 0) -> dict:
     """Summary dictionary of a list of :class:`sectio.particles.ParticleField`."""
     n = len(fields)
     out: dict = {"n_fields": n}

@@ -15,6 +15,13 @@ substitute for tensile testing (ASTM E8/E8M, ISO 6892-1) nor a design allowable.
 
 from __future__ import annotations
 
+from .choices import (
+    CONVENTION_CHOICES,
+    OROWAN_CHOICES,
+    SCOPE_CHOICES,
+    SPACING_CHOICES,
+    SUPERPOSITION_CHOICES,
+)
 from .estimate import (
     CAUTION,
     SCHEMA,
@@ -77,11 +84,16 @@ from .superposition import SUPERPOSITION_RULES, superpose, superposition_exponen
 
 __all__ = [
     "CAUTION",
+    "CONVENTION_CHOICES",
     "FIT_CAUTION",
     "GRAIN_SIZE_CONVENTIONS",
+    "OROWAN_CHOICES",
     "OROWAN_FORMS",
     "SCHEMA",
+    "SCOPE_CHOICES",
+    "SPACING_CHOICES",
     "SPACING_FORMULAS",
+    "SUPERPOSITION_CHOICES",
     "SUPERPOSITION_RULES",
     "FitDataError",
     "GrainSizeConvention",

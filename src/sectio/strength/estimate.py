@@ -28,6 +28,7 @@ from .measured import (
     particle_measurements,
 )
 from .montecarlo import DEFAULT_DRAWS, UncertainInput, first_order_sd, propagate, summarize
+from .orowan import TAYLOR_FORMULA
 from .particle_model import OrowanSetup, setup_orowan
 from .superposition import superpose, superposition_exponent
 
@@ -257,7 +258,7 @@ def predict_yield(
             _uncertain("dislocation_density_per_m2", opt.dislocation_density_per_m2, "user option")
         )
         record["dislocation"] = {
-            "formula": "Δσ = M·α·G·b·√ρ (Taylor 1934)",
+            "formula": TAYLOR_FORMULA,
             "taylor_alpha": opt.taylor_alpha,
             "taylor_alpha_source": "user option (0.2-0.4 typical; default 0.3, from memory)",
             "dislocation_density_per_m2": inputs[-1].to_dict(),

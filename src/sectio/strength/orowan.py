@@ -33,14 +33,15 @@ from __future__ import annotations
 
 import numpy as np
 
+# The first form is the default of the command line and of StrengthOptions.
 OROWAN_FORMS = {
-    "classic": "Δσ = M·G·b/L (Orowan 1948)",
-    "ashby_orowan": "Δσ = (0.538·G·b·√f/X)·ln(X/2b) (Ashby–Orowan, Gladman 1997)",
-    "ashby_orowan_gladman": "Δσ[MPa] = (5.9·√f/x)·ln(x/2.5e-4), x in µm (Gladman 1997)",
     "line_tension": (
         "Δσ = M·0.4·G·b/(π·√(1−ν))·ln(2r̄/b)/λ (Bacon–Kocks–Scattergood 1973 type, "
         "Seidman, Marquis & Dunand 2002)"
     ),
+    "classic": "Δσ = M·G·b/L (Orowan 1948)",
+    "ashby_orowan": "Δσ = (0.538·G·b·√f/X)·ln(X/2b) (Ashby–Orowan, Gladman 1997)",
+    "ashby_orowan_gladman": "Δσ[MPa] = (5.9·√f/x)·ln(x/2.5e-4), x in µm (Gladman 1997)",
 }
 
 TAYLOR_FORMULA = "Δσ = M·α·G·b·√ρ (Taylor 1934)"

@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .. import __version__
-from ..report._io import atomic_write_bytes, write_csv, write_json
+from ..report import atomic_write_bytes, to_json_text, write_csv, write_json
 from ._assemble import (
     GRAIN_CSV_COLUMNS,
     PARTICLE_CSV_COLUMNS,
@@ -97,8 +97,6 @@ def _load_record(folder: Path, key: str) -> dict | None:
 
 
 def _roundtrip(record: dict) -> dict:
-    from ..report._io import to_json_text
-
     return json.loads(to_json_text(record))
 
 
@@ -172,8 +170,7 @@ def run_study(study: Study, out_dir: str | os.PathLike, *, workers: int | None =
         else:
             if png is not None:
                 atomic_write_bytes(fields_dir / f"{task.key}.png", png)
-            data = (json.dumps(record, indent=1, ensure_ascii=False, allow_nan=False)
-                    + "\n").encode("utf-8")
+            data = to_json_text(record, indent=1).encode("utf-8")
             atomic_write_bytes(fields_dir / f"{task.key}.json", data)
             records[task.key] = json.loads(data)
         done += 1

@@ -266,18 +266,19 @@ def _particle_options(rep, key, table: dict) -> dict:
 
 
 def _strength_options(rep, key, table: dict) -> dict:
-    from ..commands.strength import (
+    from ..strength import (
         CONVENTION_CHOICES,
         OROWAN_CHOICES,
+        SCOPE_CHOICES,
         SPACING_CHOICES,
-        parse_value_sd,
+        SUPERPOSITION_CHOICES,
+        StrengthOptions,
     )
-    from ..strength import StrengthOptions
+    from ..units import parse_value_sd
 
     choices = {"orowan_form": OROWAN_CHOICES, "spacing": SPACING_CHOICES,
                "grain_size_convention": CONVENTION_CHOICES,
-               "superposition": ("linear", "rss", "power"),
-               "scope": ("obstacles", "all_strengthening")}
+               "superposition": SUPERPOSITION_CHOICES, "scope": SCOPE_CHOICES}
     out: dict = {}
     for k, v in table.items():
         try:

@@ -94,7 +94,7 @@ def intercept_lengths_px(labels, *, spacing_px: int) -> list[float]:
 
 def _measure(task: FieldTask, path: str) -> tuple[dict, bytes]:
     from ..micrograph import load
-    from ..report._io import _jsonable
+    from ..report import jsonable
 
     cal = task.calibration
     mg = load(path, pixel_size=cal.get("pixel_size"), crop_bottom=cal.get("crop_bottom", 0),
@@ -116,15 +116,15 @@ def _measure(task: FieldTask, path: str) -> tuple[dict, bytes]:
                 field.labels, spacing_px=gopts.line_spacing_px)],
             "rows": field.grain_table(),
         }
-        return _jsonable(record), overlay_png_bytes(field)
+        return jsonable(record), overlay_png_bytes(field)
     from ..particles import measure_particles
-    from ..report.particles import _png_bytes
+    from ..report import png_bytes
 
     field = measure_particles(mg, **task.options)
     d = field.to_dict(particles=True)
     rows = d.pop("particles")
     record = {"result": d, "measure_options": field.options, "rows": rows}
-    return _jsonable(record), _png_bytes(field.overlay())
+    return jsonable(record), png_bytes(field.overlay())
 
 
 def run_field(task: FieldTask) -> tuple[dict, bytes | None]:

@@ -6,4 +6,6 @@ with the exact truth (label map or mask, and the 3-D population where there is o
 
 from __future__ import annotations
 
-__all__ = ["grains", "particles"]
+from ._render import write_calibrated_tiff
+
+__all__ = ["grains", "particles", "write_calibrated_tiff"]
