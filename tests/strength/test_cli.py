@@ -11,7 +11,7 @@ from sectio.commands.strength import (
     strength_command,
 )
 from sectio.errors import OptionError, ResultFileError
-from sectio.strength import MaterialsFileError, hall_petch_mpa
+from sectio.strength import MaterialsFileError, get_material, hall_petch_mpa
 from sectio.units import mpa_to_ksi, parse_value_sd
 
 GRAINS = {"schema": "sectio/grains@1",
@@ -68,7 +68,9 @@ def test_strength_ksi_summary(spec):
     doc = json.loads((spec / "o" / "strength.json").read_text(encoding="utf-8"))
     # 1 ksi = 6.894757 MPa (NIST SP 811): the printed median is the JSON median in ksi.
     assert f"{mpa_to_ksi(doc['yield_mpa']['median']):.1f} ksi" in res.output
-    central = hall_petch_mpa(12.0, sigma0_mpa=25.0, k_mpa_sqrt_m=0.13)
+    cu = get_material("cu-pure")
+    central = hall_petch_mpa(12.0, sigma0_mpa=cu.sigma0_mpa.value,
+                             k_mpa_sqrt_m=cu.k_mpa_sqrt_m.value)
     assert doc["yield_mpa"]["at_central_inputs"] == pytest.approx(central, rel=1e-12)
 
 
@@ -221,3 +223,59 @@ def test_materials_command_lists_shipped_and_user(tmp_path):
         assert name in res.output
     assert "Pickering" in res.output  # --sources prints the sources
     assert "ASTM E8/E8M" in res.output
+
+
+def test_fit_command_reads_semicolon_and_decimal_comma(tmp_path):
+    # The same data as CSV written by a spreadsheet in a decimal-comma locale.
+    plain, semi = tmp_path / "plain.csv", tmp_path / "semi.csv"
+    plain.write_text(CSV, encoding="utf-8")
+    semi.write_text(CSV.replace(",", ";").replace(".", ","), encoding="utf-8")
+    for data, out in ((plain, "a"), (semi, "b")):
+        res = run(fit_hall_petch_command, [data, "--out", tmp_path / out])
+        assert res.exit_code == 0, res.output
+    a = json.loads((tmp_path / "a" / "hall_petch_fit.json").read_text(encoding="utf-8"))
+    b = json.loads((tmp_path / "b" / "hall_petch_fit.json").read_text(encoding="utf-8"))
+    assert b["k_mpa_sqrt_m"] == a["k_mpa_sqrt_m"]
+    assert b["covariance"] == a["covariance"]
+
+
+def test_strength_from_particles_only_grain_size_and_fit(tmp_path, spec):
+    # Particles alone: the grain-boundary term is named as missing.
+    res = run(strength_command, ["--particles", spec / "particles.json", "--material",
+                                 "steel-ferritic-lowc", "--out", spec / "p", "--draws", 2000])
+    assert res.exit_code == 0, res.output
+    doc = json.loads((spec / "p" / "strength.json").read_text(encoding="utf-8"))
+    assert doc["inputs"]["terms"]["missing"] == ["grain_boundary"]
+    assert "grain_boundary" not in doc["contributions_mpa"]
+    # ASTM G 9.4 typed in: ℓ̄ = 320·2^(−9.4/2) µm = 12.31 µm (ASTM E112 intercept relation).
+    res = run(strength_command, ["--grain-size", "9.4", "--grain-size-measure", "astm_g",
+                                 "--material", "cu-pure", "--out", spec / "g", "--draws", 2000])
+    assert res.exit_code == 0, res.output
+    doc = json.loads((spec / "g" / "strength.json").read_text(encoding="utf-8"))
+    assert doc["inputs"]["hall_petch"]["mean_intercept"]["value"] == pytest.approx(
+        320 * 2 ** (-9.4 / 2), rel=2e-3)
+    # ECD 10 µm -> ℓ̄ = 0.891·√(π/4)·10 = 7.896 µm (E112 table ratio ℓ̄/√Ā = 0.891).
+    res = run(strength_command, ["--grain-size", "10+-0.5", "--grain-size-measure", "ecd",
+                                 "--material", "cu-pure", "--out", spec / "e", "--draws", 2000])
+    doc = json.loads((spec / "e" / "strength.json").read_text(encoding="utf-8"))
+    assert doc["inputs"]["hall_petch"]["mean_intercept"]["value"] == pytest.approx(7.896, 1e-3)
+    # A fit document: its σ0, k and correlation are used.
+    data = tmp_path / "data.csv"
+    data.write_text(CSV, encoding="utf-8")
+    run(fit_hall_petch_command, [data, "--out", tmp_path / "fit"])
+    res = run(strength_command, ["--grains", spec / "grains.json", "--material",
+                                 "steel-ferritic-lowc", "--hall-petch-fit",
+                                 tmp_path / "fit" / "hall_petch_fit.json", "--out", spec / "f",
+                                 "--draws", 2000])
+    assert res.exit_code == 0, res.output
+    doc = json.loads((spec / "f" / "strength.json").read_text(encoding="utf-8"))
+    fit = json.loads((tmp_path / "fit" / "hall_petch_fit.json").read_text(encoding="utf-8"))
+    assert doc["inputs"]["hall_petch"]["k_mpa_sqrt_m"] == fit["k_mpa_sqrt_m"]["value"]
+    assert doc["inputs"]["monte_carlo"]["correlations"][0]["r"] < -0.5
+    for args, match in (([], "Nothing to estimate from"),
+                        (["--grains", spec / "grains.json", "--grain-size", "10"], "not both"),
+                        (["--grains", spec / "grains.json", "--hall-petch-fit",
+                          spec / "grains.json"], "not a sectio/hall-petch-fit@1")):
+        res = run(strength_command, [*args, "--material", "cu-pure", "--out", spec / "x"])
+        assert res.exit_code != 0
+        assert match in str(res.exception) + res.output

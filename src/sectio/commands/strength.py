@@ -49,9 +49,28 @@ def _read_summary(path: str, schema: str) -> dict:
 @click.option(
     "--grains",
     "grains_path",
-    required=True,
     type=click.Path(dir_okay=False),
     help="grains.json of the specimen (mean lineal intercept and its CI).",
+)
+@click.option(
+    "--grain-size",
+    help="Grain size typed in instead of --grains, VALUE[+-SE] (µm, or a G number with "
+    "--grain-size-measure astm_g).",
+)
+@click.option(
+    "--grain-size-measure",
+    type=click.Choice(["mean_lineal_intercept", "ecd", "astm_g"]),
+    default="mean_lineal_intercept",
+    show_default=True,
+    help="What --grain-size is: mean lineal intercept (µm), equivalent circle diameter of "
+    "the mean grain section (µm) or ASTM E112 grain size number G.",
+)
+@click.option(
+    "--hall-petch-fit",
+    "fit_path",
+    type=click.Path(dir_okay=False),
+    help="hall_petch_fit.json from fit-hall-petch: its σ0, k and their covariance replace "
+    "the material's (the Monte Carlo keeps their correlation).",
 )
 @click.option(
     "--particles",
@@ -137,6 +156,9 @@ def _read_summary(path: str, schema: str) -> dict:
 )
 def strength_command(
     grains_path,
+    grain_size,
+    grain_size_measure,
+    fit_path,
     particles_path,
     material,
     materials_file,
@@ -157,15 +179,34 @@ def strength_command(
     shearing_size,
     allow_nanocrystalline,
 ):
-    """Estimate yield strength from grains.json (and particles.json) with a 95 % interval."""
+    """Estimate yield strength from grains and/or particles with a 95 % interval.
+
+    Give --grains (or --grain-size), --particles, or both; the output says which
+    strengthening terms are missing.
+    """
     from ..strength import estimate_from_summaries
+    from ..strength.measured import grain_intercept_from
     from ..strength.summary import format_summary
 
-    grains = _read_summary(grains_path, "sectio/grains@1")
+    if grains_path and grain_size:
+        raise OptionError("Give either --grains or --grain-size, not both.")
+    if not (grains_path or grain_size or particles_path):
+        raise OptionError(
+            "Nothing to estimate from: give --grains FILE (or --grain-size VALUE), "
+            "--particles FILE, or both."
+        )
+    grains = _read_summary(grains_path, "sectio/grains@1") if grains_path else None
+    if grain_size:
+        value, se = parse_value_sd(grain_size, what="--grain-size", stress=False)
+        mv = grain_intercept_from(value, se, measure=grain_size_measure)
+        grains = {"mean_intercept_um": mv.value, "mean_intercept_se_um": mv.se,
+                  "source": mv.source}
     particles = _read_summary(particles_path, "sectio/particles@1") if particles_path else None
+    fit_doc = _read_fit_json(fit_path) if fit_path else None
     est = estimate_from_summaries(
         grains,
         particles,
+        hall_petch_fit=fit_doc,
         material=material,
         materials_file=materials_file,
         seed=seed,
@@ -187,14 +228,36 @@ def strength_command(
     )
     doc = est.to_dict()
     doc["inputs"]["files"] = {
-        "grains": str(grains_path),
+        "grains": str(grains_path) if grains_path else None,
+        "grain_size": None
+        if not grain_size
+        else {"text": grain_size, "measure": grain_size_measure},
         "particles": particles_path,
         "materials": materials_file,
+        "hall_petch_fit": fit_path,
     }
     out = Path(out_dir) / "strength.json"
     write_json(out, doc, sort_keys=True)
     click.echo(format_summary(doc, units))
     click.echo(f"wrote {out}")
+
+
+def _read_fit_json(path: str) -> dict:
+    p = Path(path)
+    try:
+        doc = json.loads(p.read_text(encoding="utf-8"))
+    except OSError as exc:
+        raise ResultFileError(f"Cannot read {path!r} ({exc.strerror}); check the path.") from None
+    except json.JSONDecodeError as exc:
+        raise ResultFileError(
+            f"{path!r} is not valid JSON (line {exc.lineno}); re-create it with fit-hall-petch."
+        ) from None
+    if not isinstance(doc, dict) or doc.get("schema") != "sectio/hall-petch-fit@1":
+        raise ResultFileError(
+            f"{path!r} is not a sectio/hall-petch-fit@1 document; pass the "
+            "hall_petch_fit.json written by sectio fit-hall-petch."
+        )
+    return doc
 
 
 def _read_fit_csv(path: str):
@@ -205,7 +268,18 @@ def _read_fit_csv(path: str):
         text = p.read_text(encoding="utf-8-sig")
     except OSError as exc:
         raise ResultFileError(f"Cannot read {path!r} ({exc.strerror}); check the path.") from None
-    rows = list(csv.DictReader(text.splitlines()))
+    lines = text.splitlines()
+    # Spreadsheets write ';' (and a decimal comma) in many locales, ',' or tab elsewhere.
+    first = lines[0] if lines else ""
+    delimiter = max((";", ",", "\t"), key=first.count) if first else ","
+    rows = list(csv.DictReader(lines, delimiter=delimiter))
+
+    def number(text):
+        text = text.strip()
+        if delimiter != ",":
+            text = text.replace(",", ".")
+        return float(text)
+
     header = set(rows[0]) if rows else set()
     if "yield_mpa" not in header or not ({"grain_size_um", "grains_json"} & header):
         raise ResultFileError(
@@ -216,9 +290,9 @@ def _read_fit_csv(path: str):
     for line, row in enumerate(rows, start=2):
         try:
             if row.get("grain_size_um", "").strip():
-                d = float(row["grain_size_um"])
+                d = number(row["grain_size_um"])
                 d_sd = (
-                    float(row["grain_size_sd_um"])
+                    number(row["grain_size_sd_um"])
                     if (row.get("grain_size_sd_um") or "").strip()
                     else None
                 )
@@ -230,8 +304,8 @@ def _read_fit_csv(path: str):
 
                 mv = grain_intercept_um(summary)
                 d, d_sd = mv.value, mv.se
-            y = float(row["yield_mpa"])
-            y_sd = float(row["yield_sd_mpa"]) if (row.get("yield_sd_mpa") or "").strip() else None
+            y = number(row["yield_mpa"])
+            y_sd = number(row["yield_sd_mpa"]) if (row.get("yield_sd_mpa") or "").strip() else None
         except (TypeError, ValueError, AttributeError):
             raise ResultFileError(
                 f"{path!r} line {line}: a value is missing or not a number; fix the row."
@@ -241,6 +315,11 @@ def _read_fit_csv(path: str):
     d_sd = cols["d_sd"] if all(v is not None for v in cols["d_sd"]) else None
     y_sd = cols["y_sd"] if all(v is not None for v in cols["y_sd"]) else None
     return cols["d"], cols["y"], d_sd, y_sd
+
+
+def _fit_correlation(fit) -> float:
+    (vaa, vab), (_, vbb) = fit.covariance
+    return float(vab / (vaa * vbb) ** 0.5) if vaa > 0 and vbb > 0 else 0.0
 
 
 @click.command("fit-hall-petch")
@@ -320,6 +399,10 @@ def fit_hall_petch_command(
                 "grain_size_range_um": {
                     "value": [min(fit.grain_size_um), max(fit.grain_size_um)],
                     "source": "range of the fitted specimens",
+                },
+                "sigma0_k_correlation": {
+                    "value": _fit_correlation(fit),
+                    "source": f"covariance of the fit ({source})",
                 },
             },
             base=base,

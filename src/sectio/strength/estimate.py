@@ -49,6 +49,8 @@ class StrengthOptions:
     """Model choices of a yield estimate (all recorded in the output).
 
     Stresses given as options are ``(value, standard_uncertainty)`` pairs in MPa.
+    ``hall_petch_fit`` is a ``sectio/hall-petch-fit@1`` document (from ``fit-hall-petch``):
+    its σ₀, k, their covariance and grain-size convention replace the material's.
     """
 
     grain_size_convention: str | None = None
@@ -63,6 +65,7 @@ class StrengthOptions:
     taylor_alpha: float = 0.3
     shearing_diameter_nm: float | None = None
     allow_nanocrystalline: bool = False
+    hall_petch_fit: dict | None = None
 
     @classmethod
     def from_kwargs(cls, **options) -> StrengthOptions:
@@ -174,7 +177,7 @@ def predict_yield(
         }
     else:
         s0 = material.sigma0_mpa
-        inputs.append(UncertainInput("sigma0_mpa", s0.value, s0.sd, s0.source, positive=False))
+        inputs.append(_constant_input("sigma0_mpa", s0, positive=False))
         base_names = ["sigma0_mpa"]
 
     # --- Hall–Petch ---------------------------------------------------------------------
@@ -183,11 +186,18 @@ def predict_yield(
     k_factor = hp.convention_k_factor(material.grain_size_convention, convention)
     if mean_intercept is not None:
         k = material.k_mpa_sqrt_m
-        inputs.append(
-            UncertainInput(
-                "k_mpa_sqrt_m", k.value * k_factor, k.sd * k_factor, k.source, positive=True
+        if k.log_sd is not None:
+            inputs.append(
+                UncertainInput(
+                    "k_mpa_sqrt_m", k.value * k_factor, k.log_sd, k.source, lognormal=True
+                )
             )
-        )
+        else:
+            inputs.append(
+                UncertainInput(
+                    "k_mpa_sqrt_m", k.value * k_factor, k.sd * k_factor, k.source, positive=True
+                )
+            )
         inputs.append(
             UncertainInput(
                 "mean_intercept_um",
@@ -310,7 +320,13 @@ def predict_yield(
 
     for message in messages:
         warnings.warn(message, ExtrapolationWarning, stacklevel=2)
-    mc = propagate(model, inputs, draws=draws, seed=seed)
+    names = {i.name for i in inputs}
+    correlations = (
+        {("sigma0_mpa", "k_mpa_sqrt_m"): material.sigma0_k_correlation}
+        if {"sigma0_mpa", "k_mpa_sqrt_m"} <= names and material.sigma0_k_correlation != 0
+        else {}
+    )
+    mc = propagate(model, inputs, draws=draws, seed=seed, correlations=correlations)
     central = model({i.name: i.value for i in inputs})
     fo_sd = first_order_sd(
         lambda v: model(v)["total"],
@@ -320,6 +336,7 @@ def predict_yield(
             else UncertainInput(i.name, i.value, i.scale, i.source)
             for i in inputs
         ],
+        correlations=correlations,
     )
 
     def stats(name):
@@ -355,9 +372,24 @@ def predict_yield(
         "variance_share_method": "one input varied at a time (others at central values), "
         "variances normalised to sum to 1",
         "first_order_sd_mpa": fo_sd,
+        "correlations": [
+            {"inputs": list(pair), "r": r, "source": material.sigma0_k_correlation_source}
+            for pair, r in correlations.items()
+        ],
     }
+    terms, missing = _terms(mean_intercept, particles, opt)
+    record["terms"] = {"included": terms, "missing": missing}
+    if "grain_boundary" in missing:
+        flags.append("no_grain_boundary_term")
+    corr_text = (
+        f"σ0 and k correlated (r = {material.sigma0_k_correlation:g}: "
+        f"{material.sigma0_k_correlation_source})"
+        if correlations
+        else "inputs are independent"
+    )
     assumptions = [
-        "inputs are independent; constants' uncertainties reflect the spread of published values",
+        f"{corr_text}; the other inputs are independent; constants' uncertainties reflect "
+        "the spread of published values",
         f"grain size: mean lineal intercept converted to the {convention} convention "
         f"(×{conv.factor_to_intercept:g}); Hall–Petch fitted to the {material.yield_definition}",
         "random texture (Taylor factor of the material class)",
@@ -367,6 +399,8 @@ def predict_yield(
             "particles are not sheared but bypassed (Orowan)",
             "volume fraction equals the measured area fraction (Delesse)",
         ]
+    for term in missing:
+        assumptions.append(_MISSING_TEXT[term])
     return YieldEstimate(
         yield_mpa=yield_stats,
         contributions_mpa=contributions,
@@ -377,6 +411,68 @@ def predict_yield(
         flags=tuple(dict.fromkeys(flags)),
         warnings=tuple(messages),
     )
+
+
+_MISSING_TEXT = {
+    "grain_boundary": "no grain-size measurement given: the Hall–Petch grain-boundary term "
+    "k·d^(−½) is missing, so the estimate is low for any real grain size",
+    "particle": "no particle measurement given: precipitate / dispersion (Orowan) "
+    "strengthening is not included",
+}
+
+
+def _terms(mean_intercept, particles, opt) -> tuple[list[str], list[str]]:
+    """Terms the estimate includes and the usual ones it lacks (said in the output)."""
+    included = ["sigma0"]
+    missing = []
+    (included if mean_intercept is not None else missing).append("grain_boundary")
+    (included if particles is not None else missing).append("particle")
+    if opt.dislocation_density_per_m2 is not None:
+        included.append("dislocation")
+    return included, missing
+
+
+def _constant_input(name: str, qty, *, positive: bool) -> UncertainInput:
+    if qty.log_sd is not None:
+        return UncertainInput(name, qty.value, qty.log_sd, qty.source, lognormal=True)
+    return UncertainInput(name, qty.value, qty.sd, qty.source, positive=positive)
+
+
+def material_with_fit(material: Material, fit_doc: dict) -> Material:
+    """The material with σ₀, k, their correlation, convention and range of a fit document."""
+    from dataclasses import replace
+
+    from .materials import Quantity
+
+    if not isinstance(fit_doc, dict) or fit_doc.get("schema") != "sectio/hall-petch-fit@1":
+        raise OptionError(
+            "The Hall–Petch fit must be a sectio/hall-petch-fit@1 document "
+            "(hall_petch_fit.json written by sectio fit-hall-petch)."
+        )
+    try:
+        s0, k = fit_doc["sigma0_mpa"], fit_doc["k_mpa_sqrt_m"]
+        (vaa, vab), (_, vbb) = fit_doc["covariance"]
+        lo, hi = fit_doc["grain_size_range_um"]
+        convention = fit_doc["grain_size_convention"]
+        hp.get_convention(convention)
+        source = f"Hall–Petch fit ({fit_doc['method']}, n = {fit_doc['n']})"
+        rho = vab / math.sqrt(vaa * vbb) if vaa > 0 and vbb > 0 else 0.0
+        return replace(
+            material,
+            sigma0_mpa=Quantity(float(s0["value"]), math.sqrt(vaa), source),
+            k_mpa_sqrt_m=Quantity(float(k["value"]), math.sqrt(vbb), source),
+            sigma0_k_correlation=float(rho),
+            sigma0_k_correlation_source=f"covariance of the {source}",
+            grain_size_convention=convention,
+            grain_size_range_um=(float(lo), float(hi)),
+            grain_size_range_source=f"grain sizes of the {source}",
+            origin=f"{material.origin}; σ0, k from a fit",
+        )
+    except (KeyError, TypeError, ValueError) as exc:
+        raise OptionError(
+            f"The Hall–Petch fit document lacks a usable value ({exc}); re-create it with "
+            "sectio fit-hall-petch."
+        ) from None
 
 
 def estimate_from_summaries(
@@ -418,6 +514,8 @@ def estimate_from_summaries(
     """
     mat = get_material(material, materials_file)
     opt = StrengthOptions.from_kwargs(**options)
+    if opt.hall_petch_fit is not None:
+        mat = material_with_fit(mat, opt.hall_petch_fit)
     intercept = grain_intercept_um(grains_summary) if grains_summary is not None else None
     parts = particle_measurements(particles_summary) if particles_summary is not None else None
     return predict_yield(

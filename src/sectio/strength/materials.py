@@ -28,14 +28,22 @@ class MaterialsFileError(InputError, ValueError):
 
 @dataclass(frozen=True)
 class Quantity:
-    """A constant with its standard uncertainty and its source."""
+    """A constant with its standard uncertainty and its source.
+
+    ``log_sd`` set: the value is the median of a log-normal spread with that standard
+    deviation of ln(value) (a between-study spread); ``sd`` is then value × log_sd.
+    """
 
     value: float
     sd: float
     source: str
+    log_sd: float | None = None
 
     def to_dict(self) -> dict:
-        return {"value": self.value, "sd": self.sd, "source": self.source}
+        out = {"value": self.value, "sd": self.sd, "source": self.source}
+        if self.log_sd is not None:
+            out["log_sd"] = self.log_sd
+        return out
 
 
 _QUANTITIES = (
@@ -67,6 +75,8 @@ class Material:
     grain_size_range_source: str
     shearing_diameter_nm: float = 0.0
     shearing_diameter_source: str = "not given (all particles treated as non-shearable)"
+    sigma0_k_correlation: float = 0.0
+    sigma0_k_correlation_source: str = "not given (σ0 and k taken as independent)"
     origin: str = "shipped"
 
     def to_dict(self) -> dict:
@@ -83,6 +93,10 @@ class Material:
             "shearing_diameter_nm": {
                 "value": self.shearing_diameter_nm,
                 "source": self.shearing_diameter_source,
+            },
+            "sigma0_k_correlation": {
+                "value": self.sigma0_k_correlation,
+                "source": self.sigma0_k_correlation_source,
             },
             "origin": self.origin,
         }
@@ -120,9 +134,12 @@ def _quantity(raw: dict, name: str, key: str, origin: str) -> Quantity:
         raise _fail(origin, name, key, 'must be a table {value = ..., sd = ..., source = "..."}')
     try:
         value = float(item["value"])
-        sd = float(item.get("sd", 0.0))
+        log_sd = float(item["log_sd"]) if "log_sd" in item else None
+        sd = float(item["sd"]) if "sd" in item else abs(value) * (log_sd or 0.0)
     except (TypeError, ValueError):
         raise _fail(origin, name, key, "needs numeric value and sd") from None
+    if log_sd is not None and not (math.isfinite(log_sd) and log_sd >= 0 and value >= 0):
+        raise _fail(origin, name, key, "needs a non-negative value and log_sd")
     if not (math.isfinite(value) and math.isfinite(sd)) or sd < 0:
         raise _fail(origin, name, key, "needs a finite value and a non-negative sd")
     if key != "sigma0_mpa" and value <= 0:
@@ -132,7 +149,7 @@ def _quantity(raw: dict, name: str, key: str, origin: str) -> Quantity:
     source = str(item.get("source", "")).strip()
     if not source:
         raise _fail(origin, name, key, 'needs a source (write "from memory" if recalled)')
-    return Quantity(value, sd, source)
+    return Quantity(value, sd, source, log_sd)
 
 
 def _material(name: str, raw: dict, origin: str) -> Material:
@@ -159,6 +176,15 @@ def _material(name: str, raw: dict, origin: str) -> Material:
     if not 0 < lo < hi:
         raise _fail(origin, name, "grain_size_range_um", "needs 0 < low < high")
     shear = raw.get("shearing_diameter_nm", {})
+    corr = raw.get("sigma0_k_correlation", {})
+    try:
+        rho = float(corr.get("value", 0.0)) if isinstance(corr, dict) else float("nan")
+    except (TypeError, ValueError):
+        rho = float("nan")
+    if not -1.0 <= rho <= 1.0:
+        raise _fail(
+            origin, name, "sigma0_k_correlation", 'must be {value = r, source = "..."}, -1 ≤ r ≤ 1'
+        )
     return Material(
         name=name,
         description=str(raw["description"]),
@@ -169,6 +195,10 @@ def _material(name: str, raw: dict, origin: str) -> Material:
         grain_size_range_source=str(rng.get("source", "not stated")),
         shearing_diameter_nm=float(shear.get("value", 0.0)),
         shearing_diameter_source=str(shear.get("source", Material.shearing_diameter_source)),
+        sigma0_k_correlation=rho,
+        sigma0_k_correlation_source=str(
+            corr.get("source", Material.sigma0_k_correlation_source)
+        ),
         origin=origin,
         **{key: _quantity(raw, name, key, origin) for key in _QUANTITIES},
     )

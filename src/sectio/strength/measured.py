@@ -176,3 +176,48 @@ def particle_measurements(particles_summary: dict) -> ParticleMeasurements:
             scale=1e3,
         )
     return ParticleMeasurements(fraction, ecd, density, sphere)
+
+
+# ℓ̄ = 0.891·√Ā in the ASTM E112 tables (REFERENCES §1.1 row 1g: 0.32·√7.75), and an
+# equivalent circle diameter of the mean section area is √(4Ā/π): ℓ̄ = 0.891·√(π/4)·ECD.
+_E112_INTERCEPT_PER_SQRT_AREA = 0.32 * math.sqrt(7.75)
+ECD_TO_INTERCEPT = _E112_INTERCEPT_PER_SQRT_AREA * math.sqrt(math.pi / 4.0)
+
+GRAIN_SIZE_MEASURES = ("mean_lineal_intercept", "ecd", "astm_g")
+
+
+def grain_intercept_from(
+    value: float, se: float = 0.0, *, measure: str = "mean_lineal_intercept", dof=None
+) -> MeasuredValue:
+    """Mean lineal intercept ℓ̄ (µm) from a grain size given in another measure.
+
+    ``measure``: ``mean_lineal_intercept`` (µm, as is), ``ecd`` (µm, equivalent circle
+    diameter of the mean section area; ℓ̄ = 0.891·√(π/4)·ECD = 0.790·ECD, the E112 table
+    ratio ℓ̄/√Ā = 0.891) or ``astm_g`` (grain size number; ℓ̄ = 320·2^(−G/2) µm, ASTM
+    E112 intercept relation). The standard error is carried to first order.
+    """
+    from ..errors import OptionError
+    from ..stereology import intercept_um_from_astm_g
+
+    if measure not in GRAIN_SIZE_MEASURES:
+        raise OptionError(
+            f"Unknown grain-size measure {measure!r}; use {', '.join(GRAIN_SIZE_MEASURES)}."
+        )
+    value, se = float(value), float(se)
+    if not (math.isfinite(value) and math.isfinite(se)) or se < 0:
+        raise OptionError(f"The grain size {value!r} ± {se!r} must be finite, sd >= 0.")
+    if measure == "astm_g":
+        lbar = float(intercept_um_from_astm_g(value))
+        lbar_se = lbar * math.log(2.0) / 2.0 * se  # |dℓ̄/dG| = ℓ̄·ln2/2
+        source = f"ASTM E112 intercept relation from G = {value:g} ± {se:g}"
+    else:
+        if value <= 0:
+            raise OptionError(f"The grain size must be positive, got {value!r} µm.")
+        factor = 1.0 if measure == "mean_lineal_intercept" else ECD_TO_INTERCEPT
+        lbar, lbar_se = factor * value, factor * se
+        source = (
+            "mean lineal intercept given by the user"
+            if factor == 1.0
+            else f"from ECD {value:g} µm: ℓ̄ = {ECD_TO_INTERCEPT:.4f}·ECD (ASTM E112 table ratio)"
+        )
+    return MeasuredValue(lbar, lbar_se, dof if lbar_se > 0 else None, source)

@@ -1,8 +1,11 @@
 """Seeded Monte Carlo propagation of measurement and parameter uncertainty.
 
-Each uncertain input is a normal (or, for a mean over a few fields, Student-t) variable
-with a central value and a scale (standard uncertainty). Inputs are drawn independently;
-the model maps a dict of arrays to a dict of named contributions with a ``"total"``.
+Each uncertain input is a normal, log-normal or (for a mean over a few fields) Student-t
+variable with a central value and a scale. Normal and log-normal inputs may be correlated
+(e.g. σ₀ and k of one Hall–Petch fit, whose estimates are strongly anti-correlated): their
+standard normal scores are drawn jointly with the given correlation matrix (a Gaussian
+copula; for normal inputs this is exactly the bivariate normal with the fit covariance).
+The model maps a dict of arrays to a dict of named contributions with a ``"total"``.
 
 Variance shares are computed one input at a time: the model is re-run with only that input
 varying (same draws, the others held at their central values), and the variances are
@@ -35,8 +38,10 @@ class UncertainInput:
     """An input with central value, standard uncertainty and distribution.
 
     ``dof`` set -> Student-t with that many degrees of freedom scaled by ``scale``
-    (a mean over few fields); ``dof`` None -> normal. ``positive`` inputs are truncated
-    at zero by redrawing (a grain size or a volume fraction cannot be negative).
+    (a mean over few fields); ``dof`` None -> normal. ``lognormal`` -> ``value`` is the
+    median and ``scale`` the standard deviation of the natural logarithm (a spread between
+    studies that scales with the value). ``positive`` normal inputs are truncated at zero by
+    redrawing (a grain size or a volume fraction cannot be negative).
     """
 
     name: str
@@ -45,12 +50,24 @@ class UncertainInput:
     source: str
     dof: float | None = None
     positive: bool = True
+    lognormal: bool = False
+
+    @property
+    def standard_uncertainty(self) -> float:
+        """First-order standard uncertainty (log-normal: median × log sd)."""
+        return float(self.value * self.scale) if self.lognormal else float(self.scale)
 
     def to_dict(self) -> dict:
+        if self.lognormal:
+            dist = f"lognormal(median={self.value:g}, log_sd={self.scale:g})"
+        elif self.dof is None:
+            dist = "normal"
+        else:
+            dist = f"student_t(dof={self.dof:g})"
         return {
             "value": float(self.value),
-            "standard_uncertainty": float(self.scale),
-            "distribution": "normal" if self.dof is None else f"student_t(dof={self.dof:g})",
+            "standard_uncertainty": self.standard_uncertainty,
+            "distribution": dist,
             "source": self.source,
         }
 
@@ -84,32 +101,109 @@ def summarize(values: np.ndarray) -> dict:
     }
 
 
+def correlation_matrix(
+    inputs: Sequence[UncertainInput], correlations: Mapping[tuple[str, str], float] | None
+) -> np.ndarray:
+    """Correlation matrix of ``inputs`` (identity plus the given pairs), checked."""
+    names = [i.name for i in inputs]
+    corr = np.eye(len(names))
+    for (a, b), rho in (correlations or {}).items():
+        if a not in names or b not in names or a == b:
+            raise OptionError(
+                f"A correlation is given between {a!r} and {b!r}, but the inputs are "
+                f"{names}; name two different inputs of the model."
+            )
+        if not -1.0 <= float(rho) <= 1.0:
+            raise OptionError(f"The correlation of {a} and {b} must lie in [-1, 1], got {rho}.")
+        ia, ib = names.index(a), names.index(b)
+        if inputs[ia].dof is not None or inputs[ib].dof is not None:
+            raise OptionError(
+                f"{a} and {b}: only normal or log-normal inputs can be correlated."
+            )
+        corr[ia, ib] = corr[ib, ia] = float(rho)
+    if np.linalg.eigvalsh(corr).min() < -1e-9:
+        raise OptionError(
+            "The correlations given are not consistent (the matrix is not positive "
+            "semi-definite); check the covariance."
+        )
+    return corr
+
+
+def _correlated_scores(corr: np.ndarray, n: int, rng: np.random.Generator) -> np.ndarray:
+    """(n, m) standard normal scores with correlation ``corr`` (eigen factor: ρ = ±1 works)."""
+    w, v = np.linalg.eigh(corr)
+    factor = v * np.sqrt(np.clip(w, 0.0, None))
+    return rng.standard_normal((n, corr.shape[0])) @ factor.T
+
+
 def draw_inputs(
-    inputs: Sequence[UncertainInput], draws: int, rng: np.random.Generator
+    inputs: Sequence[UncertainInput],
+    draws: int,
+    rng: np.random.Generator,
+    correlations: Mapping[tuple[str, str], float] | None = None,
 ) -> tuple[dict[str, np.ndarray], dict[str, float]]:
-    """Draw every input (in the given order) and return draws and truncated fractions."""
+    """Draw every input and return draws and truncated fractions.
+
+    Independent inputs are drawn one by one in the given order; inputs named in
+    ``correlations`` are drawn jointly afterwards (rows with a non-positive value of a
+    ``positive`` input are redrawn as a whole, which keeps the correlation).
+    """
+    joint = sorted({n for pair in (correlations or {}) for n in pair})
+    joint_inputs = [i for i in inputs if i.name in joint]
+    corr = correlation_matrix(joint_inputs, correlations) if joint_inputs else None
     samples: dict[str, np.ndarray] = {}
     truncated: dict[str, float] = {}
     for item in inputs:
+        if item.name in joint:
+            continue
         x = _standard(rng, item.dof, draws)
-        values = item.value + item.scale * x
+        values = _values(item, x)
         n_bad = 0
-        if item.positive:
+        if item.positive and not item.lognormal:
             bad = values <= 0
             n_bad = int(bad.sum())
             for _ in range(_MAX_REDRAW_ROUNDS):
                 if not bad.any():
                     break
-                values[bad] = item.value + item.scale * _standard(rng, item.dof, int(bad.sum()))
+                values[bad] = _values(item, _standard(rng, item.dof, int(bad.sum())))
                 bad = values <= 0
             if bad.any():
-                raise OptionError(
-                    f"The uncertainty of {item.name} ({item.scale:g}) is so large against its "
-                    f"value ({item.value:g}) that positive draws cannot be made; check the input."
-                )
+                raise _too_wide(item)
         samples[item.name] = values
         truncated[item.name] = n_bad / draws
-    return samples, truncated
+    if joint_inputs:
+        z = _correlated_scores(corr, draws, rng)
+        block = np.column_stack([_values(it, z[:, j]) for j, it in enumerate(joint_inputs)])
+        check = [j for j, it in enumerate(joint_inputs) if it.positive and not it.lognormal]
+        bad = (block[:, check] <= 0).any(axis=1) if check else np.zeros(draws, bool)
+        n_bad = int(bad.sum())
+        for _ in range(_MAX_REDRAW_ROUNDS):
+            if not bad.any():
+                break
+            z = _correlated_scores(corr, int(bad.sum()), rng)
+            block[bad] = np.column_stack(
+                [_values(it, z[:, j]) for j, it in enumerate(joint_inputs)]
+            )
+            bad = (block[:, check] <= 0).any(axis=1) if check else bad & False
+        if bad.any():
+            raise _too_wide(joint_inputs[check[0]])
+        for j, it in enumerate(joint_inputs):
+            samples[it.name] = block[:, j]
+            truncated[it.name] = n_bad / draws
+    return {i.name: samples[i.name] for i in inputs}, {i.name: truncated[i.name] for i in inputs}
+
+
+def _values(item: UncertainInput, x: np.ndarray) -> np.ndarray:
+    if item.lognormal:
+        return item.value * np.exp(item.scale * x)
+    return item.value + item.scale * x
+
+
+def _too_wide(item: UncertainInput) -> OptionError:
+    return OptionError(
+        f"The uncertainty of {item.name} ({item.scale:g}) is so large against its "
+        f"value ({item.value:g}) that positive draws cannot be made; check the input."
+    )
 
 
 def _standard(rng: np.random.Generator, dof: float | None, n: int) -> np.ndarray:
@@ -124,6 +218,7 @@ def propagate(
     *,
     draws: int = DEFAULT_DRAWS,
     seed: int = 0,
+    correlations: Mapping[tuple[str, str], float] | None = None,
 ) -> MonteCarloResult:
     """Propagate ``inputs`` through ``model`` by seeded Monte Carlo.
 
@@ -138,6 +233,9 @@ def propagate(
         Number of draws (at least 1000).
     seed : int
         Seed of the generator; the same seed gives identical draws.
+    correlations : mapping of (name, name) to float, optional
+        Correlation coefficients between pairs of normal / log-normal inputs (e.g.
+        ``{("sigma0_mpa", "k_mpa_sqrt_m"): -0.92}`` from a Hall–Petch fit's covariance).
 
     Returns
     -------
@@ -150,7 +248,7 @@ def propagate(
     names = [i.name for i in inputs]
     if len(set(names)) != len(names):
         raise ValueError(f"duplicate Monte Carlo input names: {names}")
-    samples, truncated = draw_inputs(inputs, draws, rng)
+    samples, truncated = draw_inputs(inputs, draws, rng, correlations)
     outputs = {
         k: np.broadcast_to(np.asarray(v, float), (draws,)).copy() for k, v in model(samples).items()
     }
@@ -186,15 +284,19 @@ def first_order_sd(
     inputs: Sequence[UncertainInput],
     *,
     rel_step: float = 1e-6,
+    correlations: Mapping[tuple[str, str], float] | None = None,
 ) -> float:
     """First-order (GUM law of propagation) standard uncertainty of a scalar model.
 
-    Sensitivity coefficients by central differences; Student-t inputs enter with their
-    standard deviation scale·√(ν/(ν − 2)) (ν > 2). Inputs are taken as uncorrelated.
+    u² = Σᵢⱼ cᵢ cⱼ r(i, j) uᵢ uⱼ (JCGM 100:2008 eq. 13) with sensitivity coefficients cᵢ by
+    central differences and the correlations r given (zero otherwise). Student-t inputs
+    enter with their standard deviation scale·√(ν/(ν − 2)) (ν > 2); log-normal inputs with
+    median × log sd.
     """
     central = {i.name: float(i.value) for i in inputs}
-    var = 0.0
-    for item in inputs:
+    corr = correlation_matrix(inputs, correlations)
+    cu = np.zeros(len(inputs))
+    for j, item in enumerate(inputs):
         if item.scale <= 0:
             continue
         h = rel_step * max(abs(item.value), 1e-12)
@@ -202,10 +304,10 @@ def first_order_sd(
         up[item.name] += h
         down[item.name] -= h
         c = (float(model_total(up)) - float(model_total(down))) / (2 * h)
-        sd = item.scale
+        sd = item.standard_uncertainty
         if item.dof is not None:
             if item.dof <= 2:
                 raise OptionError("first-order propagation needs more than 2 degrees of freedom.")
             sd *= np.sqrt(item.dof / (item.dof - 2.0))
-        var += (c * sd) ** 2
-    return float(np.sqrt(var))
+        cu[j] = c * sd
+    return float(np.sqrt(max(cu @ corr @ cu, 0.0)))
