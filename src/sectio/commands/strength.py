@@ -12,10 +12,11 @@ from pathlib import Path
 
 import click
 
-from ..errors import ResultFileError
+from ..errors import OptionError, ResultFileError
 from ..report import atomic_write_bytes, write_json
 from ..strength.choices import (
     CONVENTION_CHOICES,
+    GRAIN_SIZE_MEASURE_CHOICES,
     OROWAN_CHOICES,
     SCOPE_CHOICES,
     SPACING_CHOICES,
@@ -59,7 +60,7 @@ def _read_summary(path: str, schema: str) -> dict:
 )
 @click.option(
     "--grain-size-measure",
-    type=click.Choice(["mean_lineal_intercept", "ecd", "astm_g"]),
+    type=click.Choice(GRAIN_SIZE_MEASURE_CHOICES),
     default="mean_lineal_intercept",
     show_default=True,
     help="What --grain-size is: mean lineal intercept (µm), equivalent circle diameter of "

@@ -9,12 +9,14 @@ from __future__ import annotations
 
 from .estimate import SCOPES
 from .hall_petch import GRAIN_SIZE_CONVENTIONS
+from .measured import GRAIN_SIZE_MEASURES
 from .orowan import OROWAN_FORMS
 from .spacing import SPACING_FORMULAS
 from .superposition import SUPERPOSITION_RULES
 
 __all__ = [
     "CONVENTION_CHOICES",
+    "GRAIN_SIZE_MEASURE_CHOICES",
     "OROWAN_CHOICES",
     "SCOPE_CHOICES",
     "SPACING_CHOICES",
@@ -26,3 +28,4 @@ SPACING_CHOICES: tuple[str, ...] = tuple(SPACING_FORMULAS)
 CONVENTION_CHOICES: tuple[str, ...] = tuple(GRAIN_SIZE_CONVENTIONS)
 SUPERPOSITION_CHOICES: tuple[str, ...] = tuple(SUPERPOSITION_RULES)
 SCOPE_CHOICES: tuple[str, ...] = tuple(SCOPES)
+GRAIN_SIZE_MEASURE_CHOICES: tuple[str, ...] = tuple(GRAIN_SIZE_MEASURES)
