@@ -141,7 +141,7 @@ class GrainField:
 
     @property
     def grain_count(self) -> int:
-        return int(self.labels.max())
+        return int(np.count_nonzero(np.bincount(self.labels.ravel())[1:]))
 
     @property
     def direction_intercepts_um(self) -> dict[str, float]:
@@ -283,7 +283,19 @@ def measure_grains(
         d_px = options.min_grain_size_um / micrograph.pixel_size_um
         seg_opts = replace(seg_opts, min_grain_area_px=float(np.pi * d_px**2 / 4))
     seg = segment_grains(micrograph.image, seg_opts)
-    labels = seg.labels
+    return grain_field_from_labels(micrograph, seg.labels, options, seg)
+
+
+def grain_field_from_labels(
+    micrograph: Micrograph,
+    labels: np.ndarray,
+    options: GrainOptions,
+    segmentation: GrainSegmentation,
+) -> GrainField:
+    """Measure a grain label map (from the segmentation, possibly corrected by hand).
+
+    Label 0 marks pixels left out of the field (see :mod:`sectio.stereology._intercepts`).
+    """
     radius = options.circle_radius_fraction * min(labels.shape) / 2.0
     counts = count_crossings(
         labels,
@@ -301,7 +313,7 @@ def measure_grains(
         planimetric_corner=pc.corner,
         grains_per_mm2=pc.grains_per_mm2(micrograph.pixel_size_um),
         subregion_intercepts_um=_subregion_intercepts(labels, options, micrograph.pixel_size_um),
-        segmentation=seg,
+        segmentation=segmentation,
         options=options,
     )
 

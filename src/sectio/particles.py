@@ -228,15 +228,52 @@ def measure_particles(
     min_area_px = math.pi / 4.0 * (floor_um / s) ** 2
     seg = segment_particles(micrograph.image, phase=phase, threshold=threshold,
                             min_area_px=min_area_px, split=split)
+    return particle_field_from_segmentation(
+        micrograph, seg, phase=phase, floor_um=floor_um, points_per_side=points_per_side,
+        n_classes=n_classes, foil_thickness_um=foil_thickness_um, seed=seed)
+
+
+def particle_field_from_segmentation(
+    micrograph: Micrograph,
+    seg: ParticleSegmentation,
+    *,
+    phase: str,
+    floor_um: float,
+    points_per_side: int = 20,
+    n_classes: int = 10,
+    foil_thickness_um: float | None = None,
+    seed: int | None = 0,
+    left_out: np.ndarray | None = None,
+) -> ParticleField:
+    """Measure a particle segmentation (automatic, or corrected by hand).
+
+    ``left_out`` marks pixels left out of the field by hand: the field area, the area
+    fraction, the point count and the test lines cover the rest only, and particles that
+    touch a left-out region are treated like particles cut by the field edge.
+    """
+    s = micrograph.pixel_size_um
     table = measure_labels(seg.labels, pixel_size_um=s)
     h, w = seg.mask.shape
     area_um2 = h * w * s * s
     a_a = float(seg.mask.mean())
     p_p, hits, total = point_count(seg.mask, points_per_side=points_per_side, rng=seed)
+    n_int, line_px = intercept_density(seg.mask)
+    if left_out is not None and left_out.any():
+        from scipy import ndimage as ndi
+
+        valid = ~left_out
+        area_um2 = float(np.count_nonzero(valid)) * s * s
+        a_a = float(seg.mask[valid].mean()) if valid.any() else 0.0
+        p_p, hits, total = point_count(seg.mask, points_per_side=points_per_side, rng=seed,
+                                       valid=valid)
+        line_px *= float(np.count_nonzero(valid)) / valid.size
+        rim = ndi.binary_dilation(left_out, structure=np.ones((3, 3), bool))
+        near = np.unique(seg.labels[rim & (seg.labels > 0)])
+        table.edge[np.isin(table.label, near)] = True
+        table.weight[table.edge] = 0.0
     whole = ~table.edge
     wts = table.weight[whole]
     n_a = float(wts.sum() / area_um2)
-    n_int, line_px = intercept_density(seg.mask)
     n_l = n_int / (line_px * s)
     nn, safe = nearest_neighbour_distances(table.centroid_row_px, table.centroid_col_px,
                                            seg.mask.shape)

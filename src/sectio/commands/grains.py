@@ -14,6 +14,7 @@ from pathlib import Path
 import click
 
 from ..errors import CalibrationError, InputError, OptionError
+from ..review.runs import split_rejected
 from ._common import fmt as _fmt
 from ._common import max_image_memory_option, overlay_name
 
@@ -170,10 +171,22 @@ def grains_command(
         subregions=subregions,
     )
     out = Path(out_dir)
+    measure_kwargs = {
+        "boundaries": boundaries,
+        "contrast": contrast,
+        "min_grain_size": min_grain_size,
+        "line_spacing_px": line_spacing,
+        "angles_deg": list(_parse_angles(angles)),
+        "ridge_scale_px": ridge_scale,
+        "gap_px": gap,
+        "remove_scratches": not keep_scratches,
+        "subregions": subregions,
+    }
     results = run_grain_fields(
         images,
         opts,
         out,
+        measure_kwargs=measure_kwargs,
         pixel_size=pixel_size,
         scale_bar=scale_bar,
         crop_bottom=crop_bottom,
@@ -182,6 +195,7 @@ def grains_command(
         write_overlay=write_overlay,
     )
     dicts, rows, failed = results
+    dicts, rejected = split_rejected(dicts)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # one-field degeneracy is stated in ci_basis
         summary = summarize_grains(dicts)
@@ -196,6 +210,7 @@ def grains_command(
         "fields": dicts,
         "summary": summary,
         "failed": failed,
+        "rejected": rejected,
     }
     write_csv(out / "grains.csv", rows, columns=CSV_COLUMNS)
     write_json(out / "grains.json", doc)
@@ -206,15 +221,22 @@ def grains_command(
 
 
 def run_grain_fields(
-    images, opts, out: Path, *, pixel_size, scale_bar, crop_bottom, load, measure, write_overlay
+    images, opts, out: Path, *, pixel_size, scale_bar, crop_bottom, load, measure, write_overlay,
+    measure_kwargs=None,
 ):
-    """Measure every field; a field that fails is recorded and the rest go on."""
-    dicts, rows, failed, used = [], [], [], set()
+    """Measure every field (with its hand edits, if any); a field that fails is recorded
+    and the rest go on."""
+    from ..review.runs import apply_edit_file, field_dict, is_rejected, source_entry
+
+    dicts, rows, failed, used, used_edits = [], [], [], set(), set()
+    calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom}
     calibration_failures = 0
     for path in images:
         try:
             mg = load(path, pixel_size=pixel_size, crop_bottom=crop_bottom, scale_bar=scale_bar)
-            field = measure(mg, opts)
+            edited, edit_name, sha = apply_edit_file("grains", path, measure(mg, opts), out,
+                                                     used_edits)
+            field = edited.field
         except OptionError:
             raise  # a usage error: the same for every field
         except InputError as exc:
@@ -224,8 +246,14 @@ def run_grain_fields(
             continue
         name = overlay_name(path, used)
         write_overlay(field, out / name)
-        dicts.append({**field.to_dict(), "overlay_png": name})
-        rows.extend(field.grain_table())
+        d = field_dict(edited, edit_name)
+        d["overlay_png"] = name
+        if measure_kwargs is not None:
+            d["source"] = source_entry("grains", image_sha=sha, calibration=calibration,
+                                       options=measure_kwargs, edit_file=edit_name)
+        dicts.append(d)
+        if not is_rejected(d):
+            rows.extend(field.grain_table())
     if not dicts and calibration_failures == len(images) and pixel_size is None:
         raise CalibrationError(
             "None of the images carries a pixel size; give --pixel-size (e.g. 0.5um) or "

@@ -58,6 +58,7 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
     from ..particles import SCHEMA, measure_particles, summarize_particles
     from ..report import write_csv, write_json
     from ..report.particles import write_overlay_png, write_size_distribution_png
+    from ..review.runs import apply_edit_file, field_dict, is_rejected, source_entry, split_rejected
     from ..units import parse_length_um
 
     if threshold is not None and not 0.0 < threshold < 1.0:
@@ -70,13 +71,18 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
     options = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
                "phase": phase, "threshold": threshold, "min_size_um": min_size_um,
                "split": not no_split, "foil_thickness_um": foil_um, "seed": seed}
-    fields, dicts, failed, rows, used = [], [], [], [], set()
+    fields, dicts, failed, rows, used, used_edits = [], [], [], [], set(), set()
+    measure_kwargs = {"phase": phase, "threshold": threshold, "min_size_um": min_size_um,
+                      "split": not no_split, "foil_thickness_um": foil_um, "seed": seed}
+    calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom}
+    rejected = []
     calibration_failures = 0
     for path in images:
         try:
             mg = load(path, pixel_size=pixel_size, crop_bottom=crop_bottom, scale_bar=scale_bar)
-            f = measure_particles(mg, phase=phase, threshold=threshold, min_size_um=min_size_um,
-                                  split=not no_split, foil_thickness_um=foil_um, seed=seed)
+            edited, edit_name, sha = apply_edit_file(
+                "particles", path, measure_particles(mg, **measure_kwargs), out, used_edits)
+            f = edited.field
         except OptionError:
             raise  # a usage error: the same for every field
         except InputError as exc:
@@ -86,8 +92,15 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
             continue
         overlay = overlay_name(path, used)
         write_overlay_png(out / overlay, f)
+        d = field_dict(edited, edit_name)
+        d["overlay_png"] = overlay
+        d["source"] = source_entry("particles", image_sha=sha, calibration=calibration,
+                                   options=measure_kwargs, edit_file=edit_name)
+        if is_rejected(d):
+            rejected.extend(split_rejected([d])[1])
+            continue
         fields.append(f)
-        dicts.append({**f.to_dict(), "overlay_png": overlay})
+        dicts.append(d)
         rows.extend({"image": os.fspath(path), **r} for r in f.table.rows(mg.pixel_size_um))
     if not fields and calibration_failures == len(images) and pixel_size is None:
         raise CalibrationError(
@@ -98,7 +111,7 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
         warnings.simplefilter("ignore")  # single-field degeneracy is reported in "basis"
         summary = summarize_particles(fields, seed=seed)
     doc = {"schema": SCHEMA, "options": {**options, **(fields[0].options if fields else {})},
-           "fields": dicts, "summary": summary, "failed": failed}
+           "fields": dicts, "summary": summary, "failed": failed, "rejected": rejected}
     write_csv(out / "particles.csv", rows, columns=CSV_COLUMNS)
     if fields:
         write_size_distribution_png(out / "size_distribution.png", fields, summary)

@@ -9,6 +9,11 @@ Straight lines run in several directions (default 0°, 45°, 90°, 135°); along
 one pixel step is √2 pixels long. Circular lines have no ends, so no end corrections
 are needed. ℓ̄ over directions is 1 / (mean of the per-direction P_L), i.e. the total
 line length over the total count when the directions have equal length.
+
+Label 0 marks pixels left out of the field (a scratch, an inclusion, an unetched patch
+marked by hand): test lines run only over pixel steps with a grain on both ends, and a
+circle that touches a left-out pixel is not used, so the test area is the field without
+those regions (ASTM E112 places test lines on the structure to be measured).
 """
 
 from __future__ import annotations
@@ -57,7 +62,8 @@ class InterceptCount:
         return int(sum(self.crossings))
 
 
-def _diag_changes(labels: np.ndarray, anti: bool, step: int) -> tuple[int, float]:
+def _diag_changes(labels: np.ndarray, anti: bool, step: int, masked: bool = False
+                  ) -> tuple[int, float]:
     """Crossings along every ``step``-th diagonal (45° or 135°)."""
     lab = labels[:, ::-1] if anti else labels
     h, w = lab.shape
@@ -67,9 +73,19 @@ def _diag_changes(labels: np.ndarray, anti: bool, step: int) -> tuple[int, float
     changes = a != b
     d_index = np.subtract.outer(np.arange(h - 1), np.arange(w - 1))  # i - j
     keep = (d_index % step) == 0
+    if masked:
+        keep &= (a != 0) & (b != 0)
     count = int(np.count_nonzero(changes & keep))
     pairs = int(np.count_nonzero(keep))
     return count, pairs * np.sqrt(2.0)
+
+
+def _steps(a: np.ndarray, b: np.ndarray, masked: bool) -> tuple[int, float]:
+    """Label changes and number of unit steps between pixel arrays ``a`` and ``b``."""
+    if not masked:
+        return int(np.count_nonzero(a != b)), float(a.size)
+    ok = (a != 0) & (b != 0)
+    return int(np.count_nonzero((a != b) & ok)), float(np.count_nonzero(ok))
 
 
 def count_crossings(
@@ -85,7 +101,7 @@ def count_crossings(
     Parameters
     ----------
     labels : (M, N) ndarray of int
-        Grain label map without gaps (every pixel belongs to a grain).
+        Grain label map; every pixel belongs to a grain, except label 0 = left out.
     angles_deg : sequence of {0, 45, 90, 135}
         Directions of the straight test lines (0° = along rows).
     line_spacing_px : int
@@ -102,19 +118,22 @@ def count_crossings(
     """
     lab = labels if region is None else labels[region]
     s = max(1, int(line_spacing_px))
+    masked = bool(np.any(lab == 0))
     crossings, lengths = [], []
     for ang in angles_deg:
         a = int(round(ang)) % 180
         if a == 0:
             rows = lab[::s]
-            crossings.append(int(np.count_nonzero(rows[:, 1:] != rows[:, :-1])))
-            lengths.append(float(rows.shape[0] * (rows.shape[1] - 1)))
+            c, L = _steps(rows[:, 1:], rows[:, :-1], masked)
+            crossings.append(c)
+            lengths.append(L)
         elif a == 90:
             cols = lab[:, ::s]
-            crossings.append(int(np.count_nonzero(cols[1:] != cols[:-1])))
-            lengths.append(float((cols.shape[0] - 1) * cols.shape[1]))
+            c, L = _steps(cols[1:], cols[:-1], masked)
+            crossings.append(c)
+            lengths.append(L)
         elif a in (45, 135):
-            c, L = _diag_changes(lab, anti=(a == 45), step=s)
+            c, L = _diag_changes(lab, anti=(a == 45), step=s, masked=masked)
             crossings.append(c)
             lengths.append(L)
         else:
@@ -175,12 +194,16 @@ def _circle_crossings(lab: np.ndarray, r: float) -> tuple[int, float]:
     n = max(16, int(np.ceil(2 * np.pi * r / 0.5)))  # samples every ~0.5 px
     t = np.linspace(0, 2 * np.pi, n, endpoint=False)
     step = 2 * np.pi * r / n
-    total = 0
+    total, used = 0, 0
     for cy, cx in centres:
         yy = np.clip(np.round(cy + r * np.sin(t)).astype(int), 0, lab.shape[0] - 1)
         xx = np.clip(np.round(cx + r * np.cos(t)).astype(int), 0, lab.shape[1] - 1)
-        total += _cyclic_crossings(lab[yy, xx], step)
-    return total, float(len(centres) * 2 * np.pi * r)
+        v = lab[yy, xx]
+        if not v.all():  # the circle runs through a left-out region: not used
+            continue
+        total += _cyclic_crossings(v, step)
+        used += 1
+    return total, float(used * 2 * np.pi * r)
 
 
 def mean_lineal_intercept(labels: np.ndarray, *, pixel_size_um: float, **kwargs) -> float:

@@ -161,7 +161,7 @@ def measure_labels(labels: np.ndarray, *, pixel_size_um: float) -> ParticleTable
     )
 
 
-def point_count(mask: np.ndarray, *, points_per_side: int = 20, rng=None
+def point_count(mask: np.ndarray, *, points_per_side: int = 20, rng=None, valid=None
                 ) -> tuple[float, int, int]:
     """Systematic point count (ASTM E562): fraction of grid points on the phase.
 
@@ -175,7 +175,12 @@ def point_count(mask: np.ndarray, *, points_per_side: int = 20, rng=None
     off_r, off_c = np.random.default_rng(rng).random(2) * step
     rows = np.arange(off_r, h, step).astype(int)
     cols = np.arange(off_c, w, step).astype(int)
-    hits = int(mask[np.ix_(rows, cols)].sum())
+    on = mask[np.ix_(rows, cols)]
+    if valid is not None:  # points on regions left out of the field are not used
+        ok = valid[np.ix_(rows, cols)]
+        hits, total = int(on[ok].sum()), int(ok.sum())
+        return (hits / total if total else 0.0), hits, total
+    hits = int(on.sum())
     total = rows.size * cols.size
     return hits / total, hits, total
 

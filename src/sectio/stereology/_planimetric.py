@@ -3,6 +3,9 @@
 Grains wholly inside the rectangular field count 1, grains cut by an edge ½, and grains
 holding a corner ¼ (ASTM E112 planimetric procedure, rectangle variant; from memory).
 N_A = weighted count / field area.
+
+Label 0 marks pixels left out of the field by hand: they do not count towards the field
+area, and a grain that touches a left-out region is cut by the test area's edge (½).
 """
 
 from __future__ import annotations
@@ -48,12 +51,20 @@ def planimetric_count(labels: np.ndarray) -> PlanimetricCount:
     present = np.unique(labels)
     present = present[present > 0]
     border, corners = edge_and_corner_labels(labels)
+    area = float(labels.size)
+    left_out = labels == 0
+    if left_out.any():
+        from scipy import ndimage as ndi
+
+        rim = ndi.binary_dilation(left_out, structure=np.ones((3, 3), bool)) & ~left_out
+        border = np.union1d(border, np.unique(labels[rim]))
+        area = float(labels.size - np.count_nonzero(left_out))
     border = border[border > 0]
     corners = corners[corners > 0]
     n_corner = int(corners.size)
     n_edge = int(np.setdiff1d(border, corners).size)
     n_inside = int(present.size - border.size)
-    return PlanimetricCount(n_inside, n_edge, n_corner, float(labels.size))
+    return PlanimetricCount(n_inside, n_edge, n_corner, area)
 
 
 def grain_areas_px(labels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
