@@ -303,7 +303,8 @@ def grain_field_from_labels(
         line_spacing_px=options.line_spacing_px,
         circle_radius_px=radius,
     )
-    pc = planimetric_count(labels)
+    left_out = labels == 0  # pixels left out of the field by hand
+    pc = planimetric_count(labels, left_out=left_out if left_out.any() else None)
     return GrainField(
         micrograph=micrograph,
         labels=labels,

@@ -96,7 +96,7 @@ def test_exclusion_equals_cropping_for_straight_lines():
         b = count_crossings(truth[:, :152], angles_deg=STRAIGHT, line_spacing_px=spacing)
         assert a.crossings == b.crossings
         assert a.length_px == pytest.approx(b.length_px)
-    pc = planimetric_count(out.labels)
+    pc = planimetric_count(out.labels, left_out=out.left_out)
     assert pc.field_area_px == 200 * 152
     # Grains touching the left-out half count 1/2, like grains on the field edge.
     crop = planimetric_count(truth[:, :152])

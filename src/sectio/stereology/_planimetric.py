@@ -4,8 +4,9 @@ Grains wholly inside the rectangular field count 1, grains cut by an edge ½, an
 holding a corner ¼ (ASTM E112 planimetric procedure, rectangle variant; from memory).
 N_A = weighted count / field area.
 
-Label 0 marks pixels left out of the field by hand: they do not count towards the field
-area, and a grain that touches a left-out region is cut by the test area's edge (½).
+A ``left_out`` mask marks pixels left out of the field by hand: they do not count towards
+the field area, and a grain that touches a left-out region is cut by the test area's edge
+(½).
 """
 
 from __future__ import annotations
@@ -37,8 +38,9 @@ def edge_and_corner_labels(labels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return border, corners
 
 
-def planimetric_count(labels: np.ndarray) -> PlanimetricCount:
-    """Jeffries count of a label map (labels > 0 are grains).
+def planimetric_count(labels: np.ndarray, *, left_out: np.ndarray | None = None
+                      ) -> PlanimetricCount:
+    """Jeffries count of a label map (labels > 0 are grains; ``left_out``: see above).
 
     Examples
     --------
@@ -52,8 +54,7 @@ def planimetric_count(labels: np.ndarray) -> PlanimetricCount:
     present = present[present > 0]
     border, corners = edge_and_corner_labels(labels)
     area = float(labels.size)
-    left_out = labels == 0
-    if left_out.any():
+    if left_out is not None and left_out.any():
         from scipy import ndimage as ndi
 
         rim = ndi.binary_dilation(left_out, structure=np.ones((3, 3), bool)) & ~left_out
