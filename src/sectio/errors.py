@@ -50,3 +50,7 @@ class ImageWarning(SectioWarning):
 
 class ExtrapolationWarning(SectioWarning):
     """A model is used outside the range its constants were fitted on."""
+
+
+class CalibrationWarning(SectioWarning):
+    """Pixel sizes from different sources disagree, or a calibration deserves a look."""

@@ -2,42 +2,29 @@
 
 ``load(path, pixel_size="0.5um")`` reads TIFF (8/16-bit, float; page 1 of a multi-page
 file, with a warning) through tifffile and PNG/JPEG/BMP through Pillow, converts colour
-to grey, and takes the pixel size from, in order: the ``pixel_size`` argument, a scale bar
-in the info strip (``scale_bar="2um"``), the TIFF resolution tags when they carry a
-physical unit. Without any of these it refuses with a message that says how to give it.
+to grey, leaves out any instrument info strip at the bottom or top, and takes the pixel
+size from, in order: the ``pixel_size`` argument, a calibrated ``objective``, a scale bar
+in the info strip (``scale_bar="2um"`` or ``"auto"``), the file's own metadata (see
+:mod:`sectio.calibration`). Without any of these it refuses with a message that says how
+to give it.
 """
 
 from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
 
 from ._decode import _finite_or_fill, decode_grey, require_regular_file, to_grey
+from .calibration import file_sizes
 from .errors import CalibrationError, ImageReadError, MeasurementError, OptionError
-from .units import parse_length_um
 
 TIFF_SUFFIXES = {".tif", ".tiff"}
 OTHER_SUFFIXES = {".png", ".jpg", ".jpeg", ".bmp"}
 SUPPORTED = sorted(TIFF_SUFFIXES | OTHER_SUFFIXES)
-
-# TIFF ResolutionUnit: 2 = inch, 3 = centimetre (TIFF 6.0 specification).
-_RESUNIT_UM = {2: 25400.0, 3: 10000.0}
-_IMAGEJ_UNITS_UM = {
-    "micron": 1.0,
-    "microns": 1.0,
-    "um": 1.0,
-    "µm": 1.0,
-    "\\u00B5m": 1.0,
-    "nm": 1e-3,
-    "mm": 1e3,
-    "cm": 1e4,
-    "m": 1e6,
-}
-
 
 @dataclass(frozen=True)
 class Micrograph:
@@ -50,11 +37,12 @@ class Micrograph:
     pixel_size_um : float
         Side of one (square) pixel in micrometres.
     pixel_size_source : str
-        ``"given"``, ``"scale bar"`` or ``"TIFF resolution tags"``.
+        ``"given"``, ``"objective NAME"``, ``"scale bar"`` or the file's metadata
+        (e.g. ``"OME-XML PhysicalSizeX/Y"``, ``"TIFF resolution tags"``).
     path : str
         File the image came from (``"<array>"`` for arrays).
-    crop_bottom_px : int
-        Rows removed from the bottom (instrument info strip).
+    crop_bottom_px, crop_top_px : int
+        Rows removed from the bottom and top (instrument info strips).
     notes : tuple of str
         Things worth knowing about how the image was read.
     """
@@ -64,6 +52,7 @@ class Micrograph:
     pixel_size_source: str = "given"
     path: str = "<array>"
     crop_bottom_px: int = 0
+    crop_top_px: int = 0
     original_shape: tuple[int, int] = (0, 0)
     notes: tuple[str, ...] = field(default_factory=tuple)
     calibration: dict = field(default_factory=dict)
@@ -86,51 +75,12 @@ class Micrograph:
             "pixel_size_um": self.pixel_size_um,
             "pixel_size_source": self.pixel_size_source,
             "crop_bottom_px": self.crop_bottom_px,
+            "crop_top_px": self.crop_top_px,
             "shape_px": list(self.image.shape),
             "original_shape_px": list(self.original_shape),
             "notes": list(self.notes),
             **({"calibration": self.calibration} if self.calibration else {}),
         }
-
-
-def _tiff_pixel_size_um(tif, page) -> tuple[float | None, str]:
-    """Pixel size from TIFF tags: resolution with a physical unit, or ImageJ 'unit'."""
-    tags = page.tags
-    xres = tags.get("XResolution")
-    yres = tags.get("YResolution")
-    unit = tags.get("ResolutionUnit")
-    if xres is None:
-        return None, ""
-
-    def ratio(tag):
-        v = tag.value
-        return (
-            v[0] / v[1]
-            if isinstance(v, tuple) and v[1]
-            else float(v)
-            if not isinstance(v, tuple)
-            else 0.0
-        )
-
-    px_per_unit_x = ratio(xres)
-    px_per_unit_y = ratio(yres) if yres is not None else px_per_unit_x
-    unit_value = int(unit.value) if unit is not None else 2
-    unit_um = _RESUNIT_UM.get(unit_value)
-    if unit_um is None:
-        ij = tif.imagej_metadata or {}
-        unit_um = _IMAGEJ_UNITS_UM.get(str(ij.get("unit", "")).strip())
-    if unit_um is None or px_per_unit_x <= 0:
-        return None, ""
-    # Many writers put a default 72 dpi with unit inch: that is not a calibration.
-    if unit_value == 2 and round(px_per_unit_x) in (72, 96, 300) and px_per_unit_x == px_per_unit_y:
-        return None, "TIFF resolution tags hold a screen/print dpi, not a calibration"
-    sx, sy = unit_um / px_per_unit_x, unit_um / px_per_unit_y
-    if not np.isclose(sx, sy, rtol=1e-3):
-        raise CalibrationError(
-            f"{tif.filename}: the TIFF tags give non-square pixels ({sx:.4g} x {sy:.4g} µm); "
-            "resample to square pixels or give --pixel-size."
-        )
-    return sx, "TIFF resolution tags"
 
 
 def from_array(
@@ -192,6 +142,9 @@ def load(
     crop_bottom: int = 0,
     scale_bar: str | float | None = None,
     max_image_memory: str | int | None = None,
+    objective: str | None = None,
+    calibration_file: str | os.PathLike | None = None,
+    keep_strip: bool = False,
 ) -> Micrograph:
     """Read a micrograph file and its pixel size.
 
@@ -202,13 +155,24 @@ def load(
     pixel_size : str or float, optional
         Pixel size with a unit (``"0.5um"``, ``"500nm"``); a bare float is micrometres.
     crop_bottom : int
-        Rows to drop from the bottom (an instrument info strip).
+        Rows to drop from the bottom (an instrument info strip); replaces the automatic
+        strip search.
     scale_bar : str or float, optional
-        Length of a scale bar drawn in the info strip (``"2um"``); the bar is found and
-        measured, and the strip below the image is excluded.
+        Length of a scale bar drawn in the info strip (``"2um"``), or ``"auto"`` to read it
+        from the strip's text; the bar is found and measured.
     max_image_memory : str or int, optional
         Budget of decoded float pixels (``"4GiB"``); default ``$SECTIO_MAX_IMAGE_MEMORY``
         or 1.5 GiB. The file's header is checked against it before anything is decoded.
+    objective : str, optional
+        Name of an objective calibrated with ``sectio calibrate`` (e.g. ``"50x"``).
+    calibration_file : path, optional
+        The objectives' calibration file (default: see :mod:`sectio.calibration`).
+    keep_strip : bool
+        Measure the info strip's rows too (by default strips at the bottom or top are
+        found and left out).
+
+    The order in which the pixel size is chosen, and how sources are compared, is
+    described in :mod:`sectio.calibration`.
 
     Returns
     -------
@@ -227,32 +191,22 @@ def load(
             f"{path}: unsupported file type {suffix or '(none)'}; "
             f"use one of {', '.join(SUPPORTED)}."
         )
-    grey, tag_size, tag_source, notes = decode_grey(
+    # the TIFF callback returns every pixel size the file states and notes on the rest
+    grey, sources, meta_notes, notes = decode_grey(
         path, tiff=suffix in TIFF_SUFFIXES, max_image_memory=max_image_memory,
-        tiff_tags=_tiff_pixel_size_um)
-    if tag_size is None and tag_source:
-        notes.append(tag_source)
-    calibration: dict = {}
-    if pixel_size is not None:
-        size = parse_length_um(
-            pixel_size,
-            what="--pixel-size",
-            default_unit="um" if isinstance(pixel_size, (int, float)) else None,
-        )
-        source = "given"
-    elif scale_bar is not None:
-        from .scalebar import measure_scale_bar
+        tiff_tags=file_sizes)
+    return _calibrated(grey, path, [*notes, *(meta_notes or [])], sources or [],
+                       pixel_size=pixel_size, objective=objective,
+                       calibration_file=calibration_file, scale_bar=scale_bar,
+                       crop_bottom=crop_bottom, keep_strip=keep_strip)
 
-        bar_um = parse_length_um(scale_bar, what="--scale-bar")
-        found = measure_scale_bar(grey, bar_length_um=bar_um, path=path)
-        size, source = found.pixel_size_um, "scale bar"
-        calibration = found.to_dict()
-        crop_bottom = max(int(crop_bottom or 0), found.strip_height_px)
-    elif tag_size is not None:
-        size, source = tag_size, tag_source
-    else:
-        raise CalibrationError(
-            f"{path} carries no pixel size; give one with --pixel-size (e.g. 0.5um or 500nm) "
-            "or --scale-bar with the bar's length."
-        )
-    return _finish(grey, size, source, path, crop_bottom, notes, calibration)
+
+def _calibrated(grey, path, notes, sources, **options) -> Micrograph:
+    """Find the info strip, choose the pixel size (:mod:`sectio.calibration`), finish."""
+    from .calibration._apply import calibrate_image
+
+    cal = calibrate_image(grey, path=path, file_sources=sources, **options)
+    original_shape = tuple(int(v) for v in grey.shape)
+    mg = _finish(grey[cal.crop_top_px:], cal.pixel_size_um, cal.source, path,
+                 cal.crop_bottom_px, [*notes, *cal.notes], cal.details)
+    return replace(mg, crop_top_px=cal.crop_top_px, original_shape=original_shape)

@@ -3,8 +3,8 @@
 The info strip is the band of rows at the bottom of many SEM/optical images where the
 instrument writes text and a scale bar on a flat background. ``measure_scale_bar``
 
-1. finds the strip: the run of bottom rows in which most pixels sit at one flat background
-   level (micrograph rows are textured and noisy, strip rows are flat apart from glyphs);
+1. finds the strip (:func:`sectio.calibration.find_info_strips`: a flat band at the bottom
+   or top; micrograph rows are textured and noisy, strip rows flat apart from glyphs);
 2. marks ink (pixels far from the strip background, either polarity);
 3. takes as the bar the ink component that is a long, straight, uniform line: at least
    20 px long, at least 6 times longer than thick, filling its bounding box (a rectangle);
@@ -24,9 +24,10 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import ndimage as ndi
 
+from .calibration._strip import InfoStrip, find_info_strips
 from .errors import CalibrationError
 
-__all__ = ["ScaleBar", "measure_scale_bar", "find_info_strip"]
+__all__ = ["ScaleBar", "measure_scale_bar"]
 
 MIN_BAR_PX = 20
 MIN_ELONGATION = 6.0
@@ -43,6 +44,7 @@ class ScaleBar:
     bar_row_px: int
     bar_start_col_px: float
     strip_height_px: int
+    strip_side: str  # "bottom" or "top"
     polarity: str  # "light on dark" or "dark on light"
     relative_uncertainty: float  # ±0.5 px at each end / length
 
@@ -56,49 +58,14 @@ class ScaleBar:
             "bar_row_px": self.bar_row_px,
             "bar_start_col_px": self.bar_start_col_px,
             "strip_height_px": self.strip_height_px,
+            "strip_side": self.strip_side,
             "polarity": self.polarity,
             "relative_uncertainty": self.relative_uncertainty,
         }
 
 
-def _flat_rows(img: np.ndarray, level: float, tol: float) -> np.ndarray:
-    """Share of each row's pixels within ``tol`` of ``level``."""
-    return (np.abs(img - level) <= tol).mean(axis=1)
-
-
-def find_info_strip(img: np.ndarray, *, max_share: float = 0.35) -> tuple[int, float]:
-    """Height (rows) and background level of the info strip at the bottom; (0, nan) if none.
-
-    A strip row has at least half of its pixels within 2 % of the full grey range of the
-    strip's background level (the most common value of the bottom row); runs of up to 12
-    other rows (a long bar, large text) are allowed inside the strip.
-    """
-    h, w = img.shape
-    rng = float(img.max() - img.min()) or 1.0
-    tol = 0.02 * rng
-    bottom = img[-1]
-    hist, edges = np.histogram(bottom, bins=64, range=(float(img.min()), float(img.max())))
-    k = int(np.argmax(hist))
-    level = float(np.median(bottom[(bottom >= edges[k]) & (bottom <= edges[k + 1])]))
-    flat = _flat_rows(img, level, tol) >= 0.5
-    # scan upwards; rows crossed by a long bar may not look flat, so gaps of up to 12
-    # rows are allowed when flat rows resume above them
-    height, r, gap = 0, h - 1, 0
-    while r >= 0:
-        if flat[r]:
-            height, gap = h - r, 0
-        else:
-            gap += 1
-            if gap > 12:
-                break
-        r -= 1
-    if height < 8 or height > max_share * h:
-        return 0, float("nan")
-    return height, level
-
-
-def measure_scale_bar(image: np.ndarray, *, bar_length_um: float, path: str = "<array>"
-                      ) -> ScaleBar:
+def measure_scale_bar(image: np.ndarray, *, bar_length_um: float, path: str = "<array>",
+                      strip: InfoStrip | None = None) -> ScaleBar:
     """Find the scale bar in the info strip of ``image`` and derive the pixel size.
 
     Parameters
@@ -109,6 +76,8 @@ def measure_scale_bar(image: np.ndarray, *, bar_length_um: float, path: str = "<
         The length the bar stands for, in µm.
     path : str
         File name, for messages.
+    strip : InfoStrip, optional
+        The info strip already found (default: looked for at the bottom, then the top).
 
     Returns
     -------
@@ -121,15 +90,20 @@ def measure_scale_bar(image: np.ndarray, *, bar_length_um: float, path: str = "<
     """
     img = np.asarray(image, dtype=np.float64)
     h, w = img.shape
-    strip_h, level = find_info_strip(img)
-    if strip_h == 0:
-        raise CalibrationError(
-            f"{path}: no info strip with a scale bar found at the bottom of the image; "
-            "give --pixel-size instead (and --crop-bottom for any strip)."
-        )
-    strip = img[h - strip_h:]
+    if strip is None:
+        found = find_info_strips(img)
+        if not found:
+            raise CalibrationError(
+                f"{path}: no info strip with a scale bar found at the bottom or top of the "
+                "image; give --pixel-size instead (and --crop-bottom for any strip)."
+            )
+        strip = found[0]
+    strip_h, level = strip.rows, strip.level
+    row0 = h - strip_h if strip.side == "bottom" else 0
+    side = strip.side
+    band = img[row0: row0 + strip_h]
     rng = float(img.max() - img.min()) or 1.0
-    diff = strip - level
+    diff = band - level
     polarity = "light on dark" if np.abs(diff.max()) >= np.abs(diff.min()) else "dark on light"
     ink_level = diff.max() if polarity == "light on dark" else diff.min()
     frac = np.clip(diff / ink_level, 0.0, 1.0) if ink_level else np.zeros_like(diff)
@@ -153,7 +127,7 @@ def measure_scale_bar(image: np.ndarray, *, bar_length_um: float, path: str = "<
         # rows other than the core (ticks) must be sparse; the core must be solid
         if comp[core].mean() < 0.97:
             continue
-        vals = strip[sl][comp]
+        vals = band[sl][comp]
         if np.std(vals) > 0.1 * rng:  # not uniform: a photo detail or text run
             continue
         mid = sl[0].start + int(np.flatnonzero(core)[len(np.flatnonzero(core)) // 2])
@@ -179,7 +153,8 @@ def measure_scale_bar(image: np.ndarray, *, bar_length_um: float, path: str = "<
     length, thick, mid, start = longest
     return ScaleBar(
         pixel_size_um=bar_length_um / length, bar_length_um=float(bar_length_um),
-        bar_length_px=length, bar_thickness_px=thick, bar_row_px=int(h - strip_h + mid),
-        bar_start_col_px=float(start), strip_height_px=int(strip_h), polarity=polarity,
+        bar_length_px=length, bar_thickness_px=thick, bar_row_px=int(row0 + mid),
+        bar_start_col_px=float(start), strip_height_px=int(strip_h), strip_side=side,
+        polarity=polarity,
         relative_uncertainty=1.0 / length,
     )

@@ -18,6 +18,7 @@ from skimage.color import rgb2gray
 
 from sectio.errors import (
     CalibrationError,
+    CalibrationWarning,
     ImageReadError,
     ImageWarning,
     InputError,
@@ -138,11 +139,20 @@ def test_pixel_size_option_with_units(tmp_path, text, expected_um):
     assert mg.pixel_size_source == "given"
 
 
-def test_option_overrides_tags(tmp_path):
+def test_option_overrides_tags_with_a_warning(tmp_path):
     p = tmp_path / "f.tif"
     write_calibrated_tiff(p, _ramp(), 0.5)
-    mg = load(p, pixel_size="0.2um")
+    with pytest.warns(CalibrationWarning, match=r"TIFF resolution tags say 0\.5 µm.*typed"):
+        mg = load(p, pixel_size="0.2um")
     assert mg.pixel_size_um == pytest.approx(0.2) and mg.pixel_size_source == "given"
+    # both values in the JSON
+    src = mg.to_dict()["calibration"]["sources"]
+    assert src[0]["pixel_size_um"] == pytest.approx(0.5) and src[0]["used"] is False
+    assert src[0]["differs_by_pct"] == pytest.approx(150.0)
+    assert any("typed --pixel-size" in n for n in mg.notes)
+    # within 2 %: no warning, the difference is still recorded
+    mg = load(p, pixel_size="0.505um")
+    assert mg.calibration["sources"][0]["differs_by_pct"] == pytest.approx(0.99, abs=0.01)
 
 
 def test_resolution_tags_in_inches(tmp_path):
@@ -175,15 +185,21 @@ def test_missing_pixel_size(tmp_path, name):
         tifffile.imwrite(p, _ramp())  # tifffile writes ResolutionUnit NONE: no calibration
     else:
         Image.fromarray(_ramp()).save(p)
-    with pytest.raises(CalibrationError, match=_named(p) + r" carries no pixel size.*--pixel-size"):
+    msg = _named(p) + r" carries no pixel size.*--pixel-size.*--objective.*--scale-bar"
+    with pytest.raises(CalibrationError, match=msg):
         load(p)
 
 
-def test_non_square_pixels_refused(tmp_path):
+def test_non_square_pixels_refused_unless_pixel_size_given(tmp_path):
     p = tmp_path / "aniso.tif"
     tifffile.imwrite(p, _ramp(), resolution=(20000, 10000), resolutionunit="CENTIMETER")
     with pytest.raises(CalibrationError, match="non-square pixels.*--pixel-size"):
         load(p)
+    # the message says to give --pixel-size: then it is accepted, with a note
+    mg = load(p, pixel_size="0.5um")
+    assert mg.pixel_size_um == 0.5
+    assert any("non-square" in n for n in mg.notes)
+    assert mg.calibration["sources"][0]["non_square"] is True
 
 
 @pytest.mark.parametrize(

@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 import tifffile
 
+from sectio.calibration import InfoStrip
 from sectio.errors import CalibrationError
 from sectio.micrograph import load
 from sectio.scalebar import measure_scale_bar
@@ -74,5 +75,10 @@ def test_refuses_short_bar(field_image):
 def test_refuses_strip_without_marks(field_image):
     strip = np.zeros((40, field_image.shape[1]), field_image.dtype)
     img = np.vstack([field_image, strip])
-    with pytest.raises(CalibrationError, match="no contrasting marks|no straight"):
+    # a blank band holds neither text nor bar: it is not taken for an info strip
+    with pytest.raises(CalibrationError, match="no info strip with a scale bar"):
         measure_scale_bar(img, bar_length_um=2.0, path="blank.tif")
+    # told where the strip is, the bar search still finds nothing to measure
+    with pytest.raises(CalibrationError, match="no contrasting marks"):
+        measure_scale_bar(img, bar_length_um=2.0, path="blank.tif",
+                          strip=InfoStrip("bottom", 40, 0.0))

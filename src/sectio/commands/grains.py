@@ -7,6 +7,7 @@ inside the command body.
 
 from __future__ import annotations
 
+import functools
 import os
 import warnings
 from pathlib import Path
@@ -15,6 +16,7 @@ import click
 
 from ..errors import CalibrationError, InputError, OptionError
 from ..review.runs import split_rejected
+from ._calibration import calibration_options
 from ._common import fmt as _fmt
 from ._common import max_image_memory_option, overlay_name
 
@@ -51,19 +53,22 @@ def _parse_angles(text: str) -> tuple[float, ...]:
 @click.option(
     "--pixel-size",
     default=None,
-    help="Pixel size with a unit, e.g. 0.5um or 500nm (default: TIFF tags).",
+    help="Pixel size with a unit, e.g. 0.5um, 500nm, 0.02mm, 2e-5in (default: the file's "
+    "metadata; see 'Calibration' in the README).",
 )
 @click.option(
     "--scale-bar",
     default=None,
-    help="Length of the scale bar in the info strip, e.g. 50um; the bar is measured.",
+    help="Length of the scale bar in the info strip, e.g. 50um, or auto to read it from "
+    "the strip's text; the bar is measured.",
 )
 @click.option(
     "--crop-bottom",
     type=int,
     default=0,
     show_default=True,
-    help="Rows of an instrument info strip to drop from the bottom.",
+    help="Rows of an instrument info strip to drop from the bottom (replaces the "
+    "automatic strip search).",
 )
 @click.option(
     "--boundaries",
@@ -127,6 +132,7 @@ def _parse_angles(text: str) -> tuple[float, ...]:
     help="Folder for grains.json, grains.csv and the overlays.",
 )
 @max_image_memory_option
+@calibration_options
 @click.pass_context
 def grains_command(
     ctx,
@@ -144,6 +150,7 @@ def grains_command(
     angles,
     subregions,
     out_dir,
+    calibration_options,
 ):
     """Grain size by the mean lineal intercept and planimetric methods.
 
@@ -190,7 +197,7 @@ def grains_command(
         pixel_size=pixel_size,
         scale_bar=scale_bar,
         crop_bottom=crop_bottom,
-        load=load,
+        load=functools.partial(load, **calibration_options),
         measure=measure_grains,
         write_overlay=write_overlay,
     )
@@ -205,6 +212,7 @@ def grains_command(
             "pixel_size": pixel_size,
             "scale_bar": scale_bar,
             "crop_bottom": crop_bottom,
+            **calibration_options,
             **opts.to_dict(),
         },
         "fields": dicts,
@@ -229,7 +237,8 @@ def run_grain_fields(
     from ..review.runs import apply_edit_file, field_dict, is_rejected, source_entry
 
     dicts, rows, failed, used, used_edits = [], [], [], set(), set()
-    calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom}
+    calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
+                   **getattr(load, "keywords", {})}  # objective, calibration file, keep_strip
     calibration_failures = 0
     for path in images:
         try:
@@ -256,7 +265,8 @@ def run_grain_fields(
             rows.extend(field.grain_table())
     if not dicts and calibration_failures == len(images) and pixel_size is None:
         raise CalibrationError(
-            "None of the images carries a pixel size; give --pixel-size (e.g. 0.5um) or "
+            "None of the images carries a pixel size; give --pixel-size (e.g. 0.5um), "
+            "--objective or "
             "--scale-bar with the bar's length."
         )
     return dicts, rows, failed

@@ -14,6 +14,7 @@ from pathlib import Path
 import click
 
 from ..errors import CalibrationError, InputError, OptionError
+from ._calibration import calibration_options
 from ._common import fmt as _fmt
 from ._common import max_image_memory_option, overlay_name
 
@@ -27,11 +28,15 @@ CSV_COLUMNS = ["image", "particle", "area_um2", "ecd_um", "feret_max_um", "feret
 
 @click.command("particles", context_settings={"help_option_names": ["-h", "--help"]})
 @click.argument("images", nargs=-1, required=True, type=click.Path(dir_okay=True))
-@click.option("--pixel-size", default=None, help="Pixel size with a unit, e.g. 0.02um or 20nm.")
+@click.option("--pixel-size", default=None,
+              help="Pixel size with a unit, e.g. 0.02um, 20nm or 8e-7in (default: the "
+                   "file's metadata; see 'Calibration' in the README).")
 @click.option("--scale-bar", default=None,
-              help="Length of the scale bar in the info strip, e.g. 2um; the bar is measured.")
+              help="Length of the scale bar in the info strip, e.g. 2um, or auto to read it "
+                   "from the strip's text; the bar is measured.")
 @click.option("--crop-bottom", type=int, default=0, show_default=True,
-              help="Rows of an info strip to drop from the bottom.")
+              help="Rows of an info strip to drop from the bottom (replaces the automatic "
+                   "strip search).")
 @click.option("--phase", type=click.Choice(["bright", "dark"]), default="bright",
               show_default=True, help="Particles brighter or darker than the matrix.")
 @click.option("--threshold", type=float, default=None,
@@ -47,9 +52,10 @@ CSV_COLUMNS = ["image", "particle", "area_um2", "ecd_um", "feret_max_um", "feret
 @click.option("--seed", type=int, default=0, show_default=True,
               help="Seed of the point-count grid offset and the bootstrap.")
 @max_image_memory_option
+@calibration_options
 @click.pass_context
 def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, threshold,
-                      min_size, no_split, foil_thickness, out_dir, seed):
+                      min_size, no_split, foil_thickness, out_dir, seed, calibration_options):
     """Particle area (= volume) fraction, sizes, spacing and sphere-size unfolding.
 
     Example:  sectio particles field*.tif --pixel-size 0.02um --phase bright --out results
@@ -69,17 +75,20 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
         else None
     out = Path(out_dir)
     options = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
+               **calibration_options,
                "phase": phase, "threshold": threshold, "min_size_um": min_size_um,
                "split": not no_split, "foil_thickness_um": foil_um, "seed": seed}
     fields, dicts, failed, rows, used, used_edits = [], [], [], [], set(), set()
     measure_kwargs = {"phase": phase, "threshold": threshold, "min_size_um": min_size_um,
                       "split": not no_split, "foil_thickness_um": foil_um, "seed": seed}
-    calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom}
+    calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
+                   **calibration_options}
     rejected = []
     calibration_failures = 0
     for path in images:
         try:
-            mg = load(path, pixel_size=pixel_size, crop_bottom=crop_bottom, scale_bar=scale_bar)
+            mg = load(path, pixel_size=pixel_size, crop_bottom=crop_bottom, scale_bar=scale_bar,
+                      **calibration_options)
             edited, edit_name, sha = apply_edit_file(
                 "particles", path, measure_particles(mg, **measure_kwargs), out, used_edits)
             f = edited.field
@@ -104,7 +113,8 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
         rows.extend({"image": os.fspath(path), **r} for r in f.table.rows(mg.pixel_size_um))
     if not fields and calibration_failures == len(images) and pixel_size is None:
         raise CalibrationError(
-            "None of the images carries a pixel size; give --pixel-size (e.g. 0.02um) or "
+            "None of the images carries a pixel size; give --pixel-size (e.g. 0.02um), "
+            "--objective or "
             "--scale-bar with the bar's length."
         )
     with warnings.catch_warnings():
