@@ -22,6 +22,7 @@ from PIL import Image
 
 from sectio.cli import cli, main
 from sectio.commands.grains import CSV_COLUMNS
+from sectio.errors import CalibrationWarning
 from sectio.stereology import (
     astm_g_from_grains_per_mm2,
     astm_g_from_intercept_um,
@@ -212,9 +213,14 @@ def test_bad_options_exit_2(fields, tmp_path, capsys, args, message):
 
 def test_pixel_size_option_overrides_tags(fields, tmp_path):
     out = tmp_path / "o"
-    assert main(["grains", str(fields[0][0]), "--pixel-size", "250nm", "--out", str(out)]) == 0
+    # the tags say 0.5 µm: the typed 250 nm is used, with a warning and both values kept
+    with pytest.warns(CalibrationWarning, match=r"TIFF resolution tags say 0\.5 µm"):
+        rc = main(["grains", str(fields[0][0]), "--pixel-size", "250nm", "--out", str(out)])
+    assert rc == 0
     f = json.loads((out / "grains.json").read_text())["fields"][0]
     assert f["pixel_size_um"] == pytest.approx(0.25) and f["pixel_size_source"] == "given"
+    tags = f["calibration"]["sources"][0]
+    assert tags["pixel_size_um"] == pytest.approx(0.5) and tags["used"] is False
 
 
 def test_same_input_same_json(fields, tmp_path):

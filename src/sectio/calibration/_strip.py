@@ -96,9 +96,12 @@ def find_info_strips(image, *, max_share: float = 0.35) -> list[InfoStrip]:
         return []
     if not finite.all():
         img = np.where(finite, img, lo)
+    # to [0, 1] first (halved so that the span of values near the float limits stays finite)
+    unit = (img * 0.5 - lo * 0.5) / (hi * 0.5 - lo * 0.5)
     out = []
-    for side, view in (("bottom", img), ("top", img[::-1])):
-        found = _strip_from_bottom(view, lo, hi, max_share)
+    for side, view in (("bottom", unit), ("top", unit[::-1])):
+        found = _strip_from_bottom(view, 0.0, 1.0, max_share)
         if found:
-            out.append(InfoStrip(side, int(found[0]), found[1]))
+            level = lo * (1.0 - found[1]) + hi * found[1]  # back in the image's grey units
+            out.append(InfoStrip(side, int(found[0]), float(level)))
     return out
