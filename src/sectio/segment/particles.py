@@ -142,8 +142,9 @@ def _matrix_mode(img: np.ndarray) -> tuple[float, float]:
 
 
 def _split(mask: np.ndarray, min_area_px: float, depth: float):
-    from skimage.morphology import h_maxima
     from skimage.segmentation import watershed
+
+    from ._morph import h_maxima  # = skimage.morphology.h_maxima, without the full sort
 
     dist = ndi.distance_transform_edt(mask)
     f = np.log1p(dist / 3.0)
