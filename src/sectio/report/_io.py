@@ -81,11 +81,12 @@ def write_json(
 
 
 def png_bytes(rgb: np.ndarray) -> bytes:
-    """PNG bytes of an RGB (or grey) uint8 array (Pillow, default compression)."""
+    """PNG bytes of an RGB (or grey) uint8 array (Pillow; zlib level 1: several times
+    faster than the default level 6, files about a third larger)."""
     from PIL import Image
 
     buf = io.BytesIO()
-    Image.fromarray(np.ascontiguousarray(rgb)).save(buf, format="PNG")
+    Image.fromarray(np.ascontiguousarray(rgb)).save(buf, format="PNG", compress_level=1)
     return buf.getvalue()
 
 

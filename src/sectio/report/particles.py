@@ -99,5 +99,5 @@ def write_size_distribution_png(path: str | os.PathLike, fields, summary: dict) 
     fig.suptitle(f"Particle size distribution — {n_txt}", fontsize=11)
     fig.tight_layout(rect=(0, 0, 1, 0.96))
     buf = io.BytesIO()
-    fig.savefig(buf, format="png")
+    fig.savefig(buf, format="png", pil_kwargs={"compress_level": 1})  # fast zlib level
     atomic_write_bytes(path, buf.getvalue())

@@ -66,17 +66,15 @@ def _diag_changes(labels: np.ndarray, anti: bool, step: int, masked: bool = Fals
                   ) -> tuple[int, float]:
     """Crossings along every ``step``-th diagonal (45° or 135°)."""
     lab = labels[:, ::-1] if anti else labels
-    h, w = lab.shape
-    # Pairs (i, j) -> (i + 1, j + 1); diagonal index d = j - i.
+    # Pairs (i, j) -> (i + 1, j + 1) on the diagonals with (i - j) % step == 0, i.e.
+    # i % step == j % step: one strided view per residue, no index image.
     a = lab[:-1, :-1]
     b = lab[1:, 1:]
-    changes = a != b
-    d_index = np.subtract.outer(np.arange(h - 1), np.arange(w - 1))  # i - j
-    keep = (d_index % step) == 0
-    if masked:
-        keep &= (a != 0) & (b != 0)
-    count = int(np.count_nonzero(changes & keep))
-    pairs = int(np.count_nonzero(keep))
+    count, pairs = 0, 0.0
+    for r in range(step):
+        c, n = _steps(a[r::step, r::step], b[r::step, r::step], masked)
+        count += c
+        pairs += n
     return count, pairs * np.sqrt(2.0)
 
 

@@ -19,9 +19,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from ..errors import DegenerateDataWarning, OptionError
+from ..stereology._fieldstats import t_critical
 
 __all__ = ["LineFit", "fit_line", "CoarseningFit", "fit_lsw", "GrainGrowthFit",
            "fit_parabolic_growth"]
@@ -105,7 +105,7 @@ def fit_line(x, y, *, y_se=None) -> LineFit:
     chi2_red = float((w * resid**2).sum()) / dof
     slope_se = float(np.sqrt(s / delta * chi2_red))
     icpt_se = float(np.sqrt(sxx / delta * chi2_red))
-    t = float(stats.t.ppf(0.975, dof))
+    t = t_critical(dof)
     return LineFit(float(slope), float(icpt), slope_se, icpt_se,
                    (float(slope - t * slope_se), float(slope + t * slope_se)),
                    (float(icpt - t * icpt_se), float(icpt + t * icpt_se)), n, dof, r2, method)
