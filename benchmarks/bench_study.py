@@ -102,7 +102,7 @@ def main() -> None:
         from dask.distributed import LocalCluster
 
         with LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                          host="127.0.0.1", dashboard_address=None) as cluster:
+                          host="127.0.0.1", dashboard_address=":0") as cluster:
             td = timed("dask LocalCluster, 2 processes x 1 thread", a.repeat,
                        scheduler=cluster.scheduler_address)
         print(f"dask / 2 local workers, measuring: {t2[0] / td[0]:.2f}x the speed")

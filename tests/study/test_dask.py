@@ -14,7 +14,7 @@ def test_dask_cluster_results_equal_local_run(study_dir, tmp_path):
     st = load_study(study_dir / "study.toml")
     run_study(st, tmp_path / "local", workers=1, report=False)
     with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False,
-                                  host="127.0.0.1", dashboard_address=None,
+                                  host="127.0.0.1", dashboard_address=":0",
                                   protocol="tcp") as cluster:
         assert cluster.scheduler_address.startswith("tcp://127.0.0.1:")
         run = run_study(st, tmp_path / "dask", scheduler=cluster.scheduler_address,
