@@ -46,6 +46,11 @@ SUBCOMMANDS = {
         "study_command",
         "Run a whole study (specimens x fields) from a TOML file and write a report.",
     ),
+    "review": (
+        "sectio.commands.review",
+        "review_command",
+        "Review and correct the fields of a run in the browser; the edits are kept.",
+    ),
     "synth": (
         "sectio.commands.synth",
         "synth_group",
