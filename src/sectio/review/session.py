@@ -174,8 +174,7 @@ class ReviewSession:
             cal = fs.source.get("calibration", {})
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
-                mg = load(fs.image_path, pixel_size=cal.get("pixel_size"),
-                          crop_bottom=cal.get("crop_bottom", 0), scale_bar=cal.get("scale_bar"))
+                mg = load(fs.image_path, **_load_kwargs(load, cal))
                 fs.micrograph = mg
                 fs.base_field = measure_field(fs.kind, mg, fs.source.get("options", {}))
             fs.base_labels = fs.base_field.segmentation.labels
@@ -348,6 +347,14 @@ class ReviewSession:
                 "effects": fs.current.edited.effects if fs.current.edited else [],
                 "summary": _brief_summary(fs.kind, self.summary(fs.group)),
                 "group": fs.group.name}
+
+
+def _load_kwargs(load, cal: dict) -> dict:
+    """The calibration entries of a run that :func:`sectio.load` takes."""
+    import inspect
+
+    names = set(inspect.signature(load).parameters) - {"path"}
+    return {k: v for k, v in cal.items() if k in names and v is not None}
 
 
 def _particle_summary(dicts: list[dict]) -> dict:
