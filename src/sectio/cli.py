@@ -41,6 +41,11 @@ SUBCOMMANDS = {
         "materials_command",
         "List the materials data available for strength estimates.",
     ),
+    "calibrate": (
+        "sectio.commands.calibrate",
+        "calibrate_command",
+        "Measure µm per pixel of an objective (stage micrometer or scale bar) and store it.",
+    ),
     "study": (
         "sectio.commands.study",
         "study_command",

@@ -28,6 +28,11 @@ class _Table(SimpleNamespace):
     pass
 
 
+
+def _more_calibration(cal: dict) -> dict:
+    """Objective, calibration file, keep_strip: the calibration keys beyond the first three."""
+    return {k: v for k, v in cal.items() if k not in ("pixel_size", "scale_bar", "crop_bottom")}
+
 def stored_particle_field(record: dict):
     """An object with the attributes :func:`sectio.particles.summarize_particles` and
     :func:`sectio.report.particles.write_size_distribution_png` read, rebuilt from a stored
@@ -96,7 +101,8 @@ def specimen_documents(study: Study, spec: Specimen, records: dict[str, list[dic
                 if "angles_deg" in spec.grain_options else {})})
             doc = {"schema": GRAINS_SCHEMA,
                    "options": {"pixel_size": cal["pixel_size"], "scale_bar": cal["scale_bar"],
-                               "crop_bottom": cal["crop_bottom"], **opts.to_dict()},
+                               "crop_bottom": cal["crop_bottom"], **_more_calibration(cal),
+                               **opts.to_dict()},
                    "fields": dicts, "summary": summarize_grains(dicts),
                    "failed": [{"image": r["image"], "reason": r["reason"]}
                               for r in recs if r["status"] != "ok"]}
@@ -113,7 +119,8 @@ def specimen_documents(study: Study, spec: Specimen, records: dict[str, list[dic
                 rows.extend({"image": r["image"], **row} for row in r["rows"])
             po = spec.particle_options
             options = {"pixel_size": cal["pixel_size"], "scale_bar": cal["scale_bar"],
-                       "crop_bottom": cal["crop_bottom"], "phase": po.get("phase", "bright"),
+                       "crop_bottom": cal["crop_bottom"], **_more_calibration(cal),
+                       "phase": po.get("phase", "bright"),
                        "threshold": po.get("threshold"), "min_size_um": po.get("min_size_um"),
                        "split": po.get("split", True),
                        "foil_thickness_um": po.get("foil_thickness_um"), "seed": study.seed,

@@ -16,6 +16,8 @@ A minimal study file::
     material = "steel-ferritic-lowc"
     trial = { name = "annealing temperature", value = 650, unit = "°C" }
     calibration = { pixel_size = "0.5um" }
+    # or: calibration = { objective = "50x" }   (from 'sectio calibrate'; the file is
+    #     [study] calibration_file, else $SECTIO_CALIBRATIONS, else the per-user file)
 """
 
 from __future__ import annotations
@@ -35,13 +37,14 @@ __all__ = ["Specimen", "Study", "TrialVariable", "key_lines", "load_study", "par
 TIME_UNITS_H = {"s": 1 / 3600, "min": 1 / 60, "h": 1.0, "d": 24.0}
 
 _STUDY_KEYS = {"title": str, "description": str, "seed": int, "draws": int,
-               "materials_file": str, "bootstrap": int}
+               "materials_file": str, "bootstrap": int, "calibration_file": str}
 _SPECIMEN_KEYS = {"description": str, "images": (list, str), "measure": (list, str),
                   "material": str, "series": str, "trial": dict, "calibration": dict,
                   "grains": dict, "particles": dict, "strength": dict}
 _TRIAL_KEYS = {"name": str, "value": (int, float), "unit": str}
 _CALIBRATION_KEYS = {"pixel_size": (str, int, float), "scale_bar": (str, int, float),
-                     "crop_bottom": int}
+                     "crop_bottom": int, "objective": str, "calibration_file": str,
+                     "keep_strip": bool}
 _GRAIN_KEYS = {"boundaries": str, "contrast": str, "min_grain_size": (str, int, float),
                "line_spacing_px": int, "angles_deg": list, "ridge_scale_px": (int, float),
                "gap_px": (int, float), "remove_scratches": bool, "threshold_high": (int, float),
@@ -303,12 +306,13 @@ def _strength_options(rep, key, table: dict) -> dict:
     return out
 
 
-def _calibration(rep, key, table: dict) -> dict:
+def _calibration(rep, key, table: dict, folder: Path, default_file: str | None) -> dict:
+    from ..calibration._objectives import lookup_objective
     from ..units import parse_length_um
 
     cal = {"pixel_size": None, "scale_bar": None, "crop_bottom": 0}
     for k, v in table.items():
-        if k in ("pixel_size", "scale_bar"):
+        if k in ("pixel_size", "scale_bar") and not (k == "scale_bar" and v == "auto"):
             try:
                 parse_length_um(v, what=f"calibration.{k}", default_unit="um")
             except InputError as exc:
@@ -316,8 +320,21 @@ def _calibration(rep, key, table: dict) -> dict:
         if k == "crop_bottom" and v < 0:
             raise rep.error(key + (k,), f"must not be negative, got {v}.")
         cal[k] = v
-    if cal["pixel_size"] is not None and cal["scale_bar"] is not None:
-        raise rep.error(key, "give pixel_size or scale_bar, not both.")
+    given = [k for k in ("pixel_size", "objective", "scale_bar") if cal.get(k) is not None]
+    if len(given) > 1:
+        raise rep.error(key, f"give one of pixel_size, objective and scale_bar, not "
+                             f"{' and '.join(given)}.")
+    if cal.get("objective") is not None:
+        # the objective's µm/px is looked up now: a wrong name fails here, and the value
+        # enters the fields' cache keys (a new calibration measures the fields again)
+        name = cal.pop("calibration_file", None) or default_file
+        file = str((folder / name).resolve()) if name else None
+        try:
+            record = lookup_objective(cal["objective"], file)
+        except InputError as exc:
+            raise rep.error(key + ("objective",), str(exc)) from None
+        cal["calibration_file"] = record["file"]
+        cal["objective_pixel_size_um"] = record["pixel_size_um"]
     return cal
 
 
@@ -382,7 +399,7 @@ def parse_study(text: str, path: str | os.PathLike) -> Study:
             trial = TrialVariable(str(t["name"]), float(t["value"]), str(t.get("unit", "")))
         cal = _calibration(rep, key + ("calibration",),
                            _check_table(rep, key + ("calibration",), sd.get("calibration", {}),
-                                        _CALIBRATION_KEYS))
+                                        _CALIBRATION_KEYS), folder, head.get("calibration_file"))
         g = _grain_options(rep, key + ("grains",),
                            _check_table(rep, key + ("grains",), sd.get("grains", {}),
                                         _GRAIN_KEYS))

@@ -98,7 +98,9 @@ def _measure(task: FieldTask, path: str) -> tuple[dict, bytes]:
 
     cal = task.calibration
     mg = load(path, pixel_size=cal.get("pixel_size"), crop_bottom=cal.get("crop_bottom", 0),
-              scale_bar=cal.get("scale_bar"))
+              scale_bar=cal.get("scale_bar"), objective=cal.get("objective"),
+              calibration_file=cal.get("calibration_file"),
+              keep_strip=bool(cal.get("keep_strip", False)))
     if task.kind == "grains":
         from ..grains import make_options, measure_grains
         from ..report.grains import overlay_png_bytes
