@@ -59,6 +59,32 @@ class GrainOptions:
         return d
 
 
+#: Directions of the straight test lines (degrees): rows, columns and the two diagonals.
+TEST_LINE_ANGLES = (0.0, 45.0, 90.0, 135.0)
+
+
+def check_angles(angles, *, shown: str | None = None) -> tuple[float, ...]:
+    """The test-line directions as a tuple of finite degrees among 0, 45, 90, 135."""
+    from ._checks import check_number
+
+    if shown is None:
+        shown = (",".join(str(a) for a in angles) if isinstance(angles, (list, tuple))
+                 else str(angles))[:60]
+    if isinstance(angles, (str, bytes)) or not isinstance(angles, (list, tuple)) or not angles:
+        raise OptionError(f"--angles {shown!r}: give a list of test-line directions among "
+                          "0, 45, 90 and 135 degrees.")
+    out = []
+    for a in angles:
+        v = check_number(a, what="--angles entry", low=-1e6, high=1e6)
+        if v % 45.0 != 0.0:
+            raise OptionError(f"--angles {shown!r}: test lines run at 0, 45, 90 or 135 "
+                              "degrees; choose among those.")
+        v = v % 180.0 + 0.0  # 180 is 0 again (and -0.0 is 0)
+        if v not in out:
+            out.append(v)
+    return tuple(out)
+
+
 def make_options(
     *,
     boundaries: str = "dark",
@@ -74,10 +100,21 @@ def make_options(
     subregions: int = 3,
 ) -> GrainOptions:
     """Build :class:`GrainOptions` from user-facing values (units accepted for sizes)."""
-    if line_spacing_px < 1:
-        raise OptionError(f"--line-spacing must be at least 1 pixel, got {line_spacing_px}.")
-    if subregions < 2:
-        raise OptionError(f"--subregions must be at least 2, got {subregions}.")
+    from ._checks import check_number
+
+    line_spacing_px = check_number(line_spacing_px, what="--line-spacing",
+                                   name="line_spacing_px")
+    subregions = check_number(subregions, what="--subregions", name="subregions")
+    gap_px = check_number(gap_px, what="--gap", name="gap_px")
+    if ridge_scale_px is not None:
+        ridge_scale_px = check_number(ridge_scale_px, what="--ridge-scale",
+                                      name="ridge_scale_px")
+    if threshold_high is not None:
+        threshold_high = check_number(threshold_high, what="threshold_high",
+                                      name="threshold_high")
+    if threshold_low is not None:
+        threshold_low = check_number(threshold_low, what="threshold_low", name="threshold_low")
+    angles_deg = check_angles(angles_deg)
     min_um = None
     if min_grain_size is not None:
         min_um = parse_length_um(
@@ -96,7 +133,7 @@ def make_options(
     )
     return GrainOptions(
         segment=seg,
-        angles_deg=tuple(float(a) for a in angles_deg),
+        angles_deg=angles_deg,
         line_spacing_px=int(line_spacing_px),
         min_grain_size_um=min_um,
         subregions=int(subregions),

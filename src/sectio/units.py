@@ -7,6 +7,7 @@
 
 from __future__ import annotations
 
+import math
 import re
 
 from .errors import OptionError
@@ -35,24 +36,57 @@ _STRESS_TO_MPA = {
     "ksi": 6.894757,
 }
 
-_NUMBER_UNIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\d\s].*?)?\s*$")
+# Applied to stripped text of bounded length with fullmatch: one pass, no backtracking
+# blow-up (the unit is "anything from the first non-digit on").
+_NUMBER_UNIT = re.compile(r"([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\d\s].*)?",
+                          re.DOTALL)
+#: Longest quantity read; anything longer is refused before parsing (keeps parsing linear).
+MAX_QUANTITY_CHARS = 100
+#: Lengths sectio accepts, in µm: 1 pm to 1 km (beyond these a typo is far more likely).
+LENGTH_RANGE_UM = (1e-6, 1e9)
+#: Stresses sectio accepts, in MPa (magnitude): up to 1000 GPa.
+STRESS_LIMIT_MPA = 1e6
+
+
+def _shown(text) -> str:
+    t = str(text)
+    return repr(t if len(t) <= 40 else t[:37] + "...")
 
 
 def _split(text: str, what: str, example: str) -> tuple[float, str | None]:
-    m = _NUMBER_UNIT.match(str(text))
+    t = str(text)
+    if len(t) > MAX_QUANTITY_CHARS:
+        raise OptionError(f"{what} {_shown(t)} is {len(t)} characters long; give a number "
+                          f"with a unit, e.g. {example}.")
+    m = _NUMBER_UNIT.fullmatch(t.strip())
     if not m:
         raise OptionError(
-            f"Cannot read {what} {text!r}; give a number with a unit, e.g. {example}."
+            f"Cannot read {what} {_shown(t)}; give a number with a unit, e.g. {example}."
         )
-    return float(m.group(1)), (m.group(2) or None)
+    value = float(m.group(1))
+    if not math.isfinite(value):
+        raise OptionError(f"{what} {_shown(t)} is not a finite number; give e.g. {example}.")
+    return value, (m.group(2) or None)
+
+
+def _finite_number(text, what: str, example: str) -> float:
+    try:
+        value = float(text)
+    except (TypeError, ValueError, OverflowError):
+        raise OptionError(f"Cannot read {what} {_shown(text)}; give e.g. {example}.") from None
+    if not math.isfinite(value):
+        raise OptionError(f"{what} {_shown(text)} is not a finite number; give e.g. {example}.")
+    return value
 
 
 def parse_length_um(
     text: str | float, *, what: str = "length", default_unit: str | None = None
 ) -> float:
     """Length in micrometres from text such as ``'0.5um'``, ``'500 nm'``, ``'0.0005mm'``."""
+    if isinstance(text, bool):
+        raise OptionError(f"{what} {text!r} is not a length; give e.g. 0.5um or 500nm.")
     if isinstance(text, (int, float)):
-        value, unit = float(text), default_unit
+        value, unit = _finite_number(text, what, "0.5um or 500nm"), default_unit
     else:
         value, unit = _split(text, what, "0.5um or 500nm")
         unit = unit or default_unit
@@ -65,23 +99,32 @@ def parse_length_um(
             f"Unknown length unit {unit!r} in {what} {text!r}; use nm, um (or µm), mm or m."
         )
     if not value > 0:
-        raise OptionError(f"The {what} must be positive, got {text!r}.")
-    return value * factor
+        raise OptionError(f"The {what} must be positive, got {_shown(text)}.")
+    um = value * factor
+    lo, hi = LENGTH_RANGE_UM
+    if not lo <= um <= hi:
+        raise OptionError(f"{what} {_shown(text)} is outside the allowed range 1 pm to 1 km; "
+                          "check the number and its unit.")
+    return um
 
 
 def parse_stress_mpa(text: str | float, *, what: str = "stress") -> float:
     """Stress in MPa from text such as ``'310 MPa'``, ``'45 ksi'``; a bare number is MPa."""
-    if isinstance(text, (int, float)):
-        return float(text)
-    value, unit = _split(text, what, "310MPa or 45ksi")
-    if unit is None:
-        return value
-    factor = _STRESS_TO_MPA.get(unit.strip().lower())
-    if factor is None:
-        raise OptionError(
-            f"Unknown stress unit {unit!r} in {what} {text!r}; use MPa, GPa, psi or ksi."
-        )
-    return value * factor
+    if isinstance(text, (int, float)) and not isinstance(text, bool):
+        value, factor = _finite_number(text, what, "310MPa or 45ksi"), 1.0
+    else:
+        value, unit = _split(text, what, "310MPa or 45ksi")
+        factor = 1.0 if unit is None else _STRESS_TO_MPA.get(unit.strip().lower())
+        if factor is None:
+            raise OptionError(
+                f"Unknown stress unit {unit!r} in {what} {_shown(text)}; use MPa, GPa, psi or "
+                "ksi."
+            )
+    mpa = value * factor
+    if not abs(mpa) <= STRESS_LIMIT_MPA:
+        raise OptionError(f"{what} {_shown(text)} is outside the allowed range -1000 GPa to "
+                          "1000 GPa; check the number and its unit.")
+    return mpa
 
 
 def mpa_to_ksi(value_mpa: float) -> float:

@@ -200,8 +200,12 @@ def test_no_pixel_size_anywhere(tmp_path, capsys):
 @pytest.mark.parametrize(
     "args, message",
     [(["--angles", "0,30"], "--angles '0,30'"),
-     (["--line-spacing", "0"], "--line-spacing must be at least 1"),
-     (["--subregions", "1"], "--subregions must be at least 2"),
+     (["--line-spacing", "0"], "--line-spacing 0 is outside the allowed range [1, 1000]"),
+     (["--subregions", "1"], "--subregions 1 is outside the allowed range [2, 20]"),
+     (["--subregions", "100000"], "--subregions 100000 is outside the allowed range"),
+     (["--angles", "nan"], "--angles entry nan is not a finite number"),
+     (["--gap", "nan"], "--gap nan is not a finite number"),
+     (["--gap", "1e9"], "--gap 1000000000.0 is outside the allowed range [0, 50]"),
      (["--pixel-size", "0.5"], "has no unit")],
 )
 def test_bad_options_exit_2(fields, tmp_path, capsys, args, message):

@@ -171,9 +171,9 @@ def test_segment_option_errors(kw, match):
 def test_make_options_errors():
     with pytest.raises(OptionError, match=r"--min-grain-size '3' has no unit"):
         make_options(min_grain_size="3")
-    with pytest.raises(OptionError, match=r"--line-spacing must be at least 1 pixel, got 0"):
+    with pytest.raises(OptionError, match=r"--line-spacing 0 is outside the allowed range \[1, 1000\]"):
         make_options(line_spacing_px=0)
-    with pytest.raises(OptionError, match=r"--subregions must be at least 2, got 1"):
+    with pytest.raises(OptionError, match=r"--subregions 1 is outside the allowed range \[2, 20\]"):
         make_options(subregions=1)
     assert make_options(min_grain_size=3).min_grain_size_um == 3.0  # bare number: µm
     img, _ = synthetic_grains((128, 128), 20, rng=1)

@@ -89,8 +89,12 @@ def test_positive_inputs_truncated():
 
 
 def test_too_few_draws():
-    with pytest.raises(OptionError, match="--draws must be at least 1000"):
+    with pytest.raises(OptionError, match=r"--draws 10 is outside the allowed range \[1000, "):
         propagate(_hp_model, HP_INPUTS, draws=10)
+    with pytest.raises(OptionError, match=r"--draws 1000000000 is outside the allowed range"):
+        propagate(_hp_model, HP_INPUTS, draws=10**9)
+    with pytest.raises(OptionError, match=r"--seed -1 is outside the allowed range \[0, "):
+        propagate(_hp_model, HP_INPUTS, seed=-1)
 
 
 def test_estimate_hp_only_agrees_with_first_order():

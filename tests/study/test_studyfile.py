@@ -64,7 +64,8 @@ def _spoil(study_dir, old: str, new: str):
         ('series = "ageing"', 'series = "anneal"',
          r"key specimens\.P-4h\.trial: series 'anneal' mixes trial variables"),
         ('[specimens.P-4h]', '[specimens.P-4h]\ngrains = { line_spacing_px = 0 }',
-         r"line 20, key specimens\.P-4h\.grains: --line-spacing must be at least 1"),
+         r"line 20, key specimens\.P-4h\.grains\.line_spacing_px: line_spacing_px 0 is outside "
+         r"the allowed range"),
         ('[specimens.P-4h]', '[specimens.P-4h]\ncalibration = { pixel_size = "fast" }',
          r"line 20, key specimens\.P-4h\.calibration\.pixel_size: Cannot read"),
         ('[specimens.P-4h]', '[specimens.P-4h]\nparticles = { phase = "grey" }',

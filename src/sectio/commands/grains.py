@@ -34,18 +34,16 @@ CSV_COLUMNS = [
 
 
 def _parse_angles(text: str) -> tuple[float, ...]:
+    from ..grains import check_angles
+
     try:
-        angles = tuple(float(a) for a in text.split(","))
+        angles = [float(a) for a in text.split(",")]
     except ValueError:
         raise OptionError(
-            f"--angles {text!r} is not a comma-separated list of degrees; use e.g. 0,45,90,135."
+            f"--angles {text[:60]!r} is not a comma-separated list of degrees; "
+            "use e.g. 0,45,90,135."
         ) from None
-    bad = [a for a in angles if int(round(a)) % 180 not in (0, 45, 90, 135)]
-    if bad or not angles:
-        raise OptionError(
-            f"--angles {text!r}: test lines run at 0, 45, 90 or 135 degrees; choose among those."
-        )
-    return angles
+    return check_angles(angles, shown=text[:60])
 
 
 @click.command("grains", context_settings={"help_option_names": ["-h", "--help"]})

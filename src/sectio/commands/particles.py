@@ -60,6 +60,7 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
 
     Example:  sectio particles field*.tif --pixel-size 0.02um --phase bright --out results
     """
+    from .._checks import check_number
     from ..micrograph import load
     from ..particles import SCHEMA, measure_particles, summarize_particles
     from ..report import write_csv, write_json
@@ -67,6 +68,7 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
     from ..review.runs import apply_edit_file, field_dict, is_rejected, source_entry, split_rejected
     from ..units import parse_length_um
 
+    seed = check_number(seed, what="--seed", name="seed")
     if threshold is not None and not 0.0 < threshold < 1.0:
         raise OptionError(f"--threshold {threshold!r} is outside (0, 1); give a grey level of "
                           "the flattened image between 0 and 1, or leave it out.")

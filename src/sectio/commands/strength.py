@@ -185,10 +185,19 @@ def strength_command(
     Give --grains (or --grain-size), --particles, or both; the output says which
     strengthening terms are missing.
     """
+    from .._checks import check_number
     from ..strength import estimate_from_summaries
     from ..strength.measured import grain_intercept_from
     from ..strength.summary import format_summary
 
+    seed = check_number(seed, what="--seed", name="seed")
+    draws = check_number(draws, what="--draws", name="draws")
+    taylor_alpha = check_number(taylor_alpha, what="--taylor-alpha", name="taylor_alpha")
+    if exponent is not None:
+        exponent = check_number(exponent, what="--exponent", name="exponent")
+    if shearing_size is not None:
+        shearing_size = check_number(shearing_size, what="--shearing-size",
+                                     name="shearing_size_nm", open_low=True)
     if grains_path and grain_size:
         raise OptionError("Give either --grains or --grain-size, not both.")
     if not (grains_path or grain_size or particles_path):

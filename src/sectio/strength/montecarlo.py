@@ -241,9 +241,11 @@ def propagate(
     -------
     MonteCarloResult
     """
-    if int(draws) < 1000:
-        raise OptionError(f"--draws must be at least 1000 for a stable 95 % interval, got {draws}.")
-    draws = int(draws)
+    from .._checks import check_number
+
+    # at least 1000 for a stable 95 % interval; at most a million (memory)
+    draws = check_number(draws, what="--draws", name="draws")
+    seed = check_number(seed, what="--seed", name="seed")
     rng = np.random.default_rng(seed)
     names = [i.name for i in inputs]
     if len(set(names)) != len(names):

@@ -29,6 +29,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from .._checks import check_number
 from ..errors import InputError, StudyFileError
 
 __all__ = ["Specimen", "Study", "TrialVariable", "key_lines", "load_study", "parse_study"]
@@ -235,11 +236,21 @@ def _expand_images(rep, key, patterns, folder: Path) -> tuple[list[str], list[Pa
 
 
 def _grain_options(rep, key, table: dict) -> dict:
-    from ..grains import make_options
+    from .._checks import RANGES
+    from ..grains import check_angles, make_options
+    from ..units import parse_length_um
 
     opts = dict(table)
-    if "angles_deg" in opts:
-        opts["angles_deg"] = tuple(float(a) for a in opts["angles_deg"])
+    for k, v in table.items():
+        try:
+            if k == "angles_deg":
+                opts[k] = check_angles(v)
+            elif k in RANGES:
+                opts[k] = check_number(v, what=k, name=k)
+            elif k == "min_grain_size":
+                parse_length_um(v, what=k, default_unit="um")
+        except InputError as exc:
+            raise rep.error(key + (k,), str(exc)) from None
     try:
         make_options(**opts)
     except InputError as exc:
@@ -255,8 +266,8 @@ def _particle_options(rep, key, table: dict) -> dict:
         try:
             if k == "phase" and v not in ("bright", "dark"):
                 raise StudyFileError(f"phase must be 'bright' or 'dark', got {v!r}.")
-            if k == "threshold" and not 0.0 < float(v) < 1.0:
-                raise StudyFileError(f"threshold {v!r} is outside (0, 1).")
+            if k in ("threshold", "points_per_side", "n_classes"):
+                v = check_number(v, what=k, name=k, open_low=k == "threshold")
             if k == "min_size":
                 out["min_size_um"] = parse_length_um(v, what="particles.min_size")
             elif k == "foil_thickness":
@@ -294,7 +305,9 @@ def _strength_options(rep, key, table: dict) -> dict:
                 out[name] = parse_value_sd(text, what=f"strength.{k}",
                                            stress=k != "dislocation_density")
             elif k == "shearing_size_nm":
-                out["shearing_diameter_nm"] = float(v)
+                out["shearing_diameter_nm"] = check_number(v, what=k, name=k, open_low=True)
+            elif k in ("exponent", "taylor_alpha"):
+                out[k] = check_number(v, what=k, name=k)
             else:
                 out[k] = v
         except InputError as exc:
@@ -317,8 +330,11 @@ def _calibration(rep, key, table: dict, folder: Path, default_file: str | None) 
                 parse_length_um(v, what=f"calibration.{k}", default_unit="um")
             except InputError as exc:
                 raise rep.error(key + (k,), str(exc)) from None
-        if k == "crop_bottom" and v < 0:
-            raise rep.error(key + (k,), f"must not be negative, got {v}.")
+        if k == "crop_bottom":
+            try:
+                check_number(v, what=k, name=k)
+            except InputError as exc:
+                raise rep.error(key + (k,), str(exc)) from None
         cal[k] = v
     given = [k for k in ("pixel_size", "objective", "scale_bar") if cal.get(k) is not None]
     if len(given) > 1:
@@ -359,10 +375,12 @@ def parse_study(text: str, path: str | os.PathLike) -> Study:
         if not materials_file.is_file():
             raise rep.error(("study", "materials_file"),
                             f"cannot find {head['materials_file']!r} next to the study file.")
-    for k in ("draws", "bootstrap"):
-        if k in head and head[k] < (100 if k == "draws" else 0):
-            raise rep.error(("study", k), f"too small ({head[k]}); use at least "
-                                          f"{100 if k == 'draws' else 0}.")
+    for k in ("draws", "bootstrap", "seed"):
+        if k in head:
+            try:
+                check_number(head[k], what=k, name=k)
+            except InputError as exc:
+                raise rep.error(("study", k), str(exc)) from None
     specs_doc = doc.get("specimens")
     if not isinstance(specs_doc, dict) or not specs_doc:
         raise rep.error(("specimens",), "no specimens; add at least one [specimens.NAME] "
@@ -396,7 +414,11 @@ def parse_study(text: str, path: str | os.PathLike) -> Study:
             if missing:
                 raise rep.error(key + ("trial",), f"missing {missing[0]!r}; write e.g. "
                                 "trial = { name = \"ageing time\", value = 16, unit = \"h\" }.")
-            trial = TrialVariable(str(t["name"]), float(t["value"]), str(t.get("unit", "")))
+            try:
+                value = check_number(t["value"], what="value", name="trial_value")
+            except InputError as exc:
+                raise rep.error(key + ("trial", "value"), str(exc)) from None
+            trial = TrialVariable(str(t["name"]), float(value), str(t.get("unit", "")))
         cal = _calibration(rep, key + ("calibration",),
                            _check_table(rep, key + ("calibration",), sd.get("calibration", {}),
                                         _CALIBRATION_KEYS), folder, head.get("calibration_file"))
