@@ -42,8 +42,9 @@ _NUMBER_UNIT = re.compile(r"([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\d\
                           re.DOTALL)
 #: Longest quantity read; anything longer is refused before parsing (keeps parsing linear).
 MAX_QUANTITY_CHARS = 100
-#: Lengths sectio accepts, in µm: 1 pm to 1 km (beyond these a typo is far more likely).
-LENGTH_RANGE_UM = (1e-6, 1e9)
+#: Smallest length read, in µm (1 attometre): keeps subnormal numbers such as 5e-324 out;
+#: each use (pixel size, size floors) checks its own plausible range on top.
+MIN_LENGTH_UM = 1e-12
 #: Stresses sectio accepts, in MPa (magnitude): up to 1000 GPa.
 STRESS_LIMIT_MPA = 1e6
 
@@ -101,10 +102,12 @@ def parse_length_um(
     if not value > 0:
         raise OptionError(f"The {what} must be positive, got {_shown(text)}.")
     um = value * factor
-    lo, hi = LENGTH_RANGE_UM
-    if not lo <= um <= hi:
-        raise OptionError(f"{what} {_shown(text)} is outside the allowed range 1 pm to 1 km; "
-                          "check the number and its unit.")
+    if not math.isfinite(um):
+        raise OptionError(f"{what} {_shown(text)} is too large to be a length; check the "
+                          "number and its unit.")
+    if um < MIN_LENGTH_UM:
+        raise OptionError(f"{what} {_shown(text)} is below the smallest length read "
+                          "(1e-12 um); check the number and its unit.")
     return um
 
 
