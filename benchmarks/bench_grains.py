@@ -60,11 +60,11 @@ def make_image(cache: Path, mp: int) -> Path:
 
 def run_pipeline(path: Path, out: Path) -> dict[str, float]:
     """One run of the grains pipeline on one field; seconds per stage."""
-    from sectio.commands.grains import CSV_COLUMNS
     from sectio.grains import SCHEMA, make_options, measure_grains, summarize_grains
     from sectio.micrograph import load
     from sectio.report._io import write_csv, write_json
     from sectio.report.grains import write_overlay
+    from sectio.specimen import GRAIN_CSV_COLUMNS as CSV_COLUMNS
 
     t = {}
     t0 = time.perf_counter()

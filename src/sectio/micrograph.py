@@ -203,7 +203,7 @@ def load(
 
 def _calibrated(grey, path, notes, sources, **options) -> Micrograph:
     """Find the info strip, choose the pixel size (:mod:`sectio.calibration`), finish."""
-    from .calibration._apply import calibrate_image
+    from .calibration import calibrate_image
 
     cal = calibrate_image(grey, path=path, file_sources=sources, **options)
     original_shape = tuple(int(v) for v in grey.shape)

@@ -82,6 +82,11 @@ class ParticleField:
     def image(self) -> str:
         return self.micrograph.path
 
+    def whole_sections(self) -> tuple[np.ndarray, np.ndarray]:
+        """ECD (µm) and Miles–Lantuéjoul weight of the particles not cut by the field edge."""
+        whole = ~self.table.edge
+        return self.table.ecd_um[whole], self.table.weight[whole]
+
     def to_dict(self, *, particles: bool = False) -> dict:
         u = self.unfolding
         d = {
@@ -325,7 +330,14 @@ def particle_field_from_segmentation(
 
 
 def summarize_particles(fields, *, bootstrap: int = 200, seed: int = 0) -> dict:
-    """Statistics over fields (see :mod:`sectio.stereology._particle_summary`)."""
+    """Statistics over live :class:`ParticleField` results.
+
+    See :func:`sectio.stereology.summarize_particle_fields`; a specimen's fields are
+    summarised from their records by :func:`sectio.specimen.particles_document`.
+    """
     from .stereology import summarize_particle_fields
 
-    return summarize_particle_fields(list(fields), bootstrap=bootstrap, seed=seed)
+    fields = list(fields)
+    return summarize_particle_fields(
+        [f.to_dict() for f in fields], [f.options for f in fields],
+        [f.whole_sections() for f in fields], bootstrap=bootstrap, seed=seed)

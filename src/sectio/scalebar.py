@@ -24,7 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import ndimage as ndi
 
-from .calibration._strip import InfoStrip, find_info_strips
+from .calibration import InfoStrip, find_info_strips
 from .errors import CalibrationError
 
 __all__ = ["ScaleBar", "measure_scale_bar"]

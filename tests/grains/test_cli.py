@@ -21,8 +21,8 @@ from click.testing import CliRunner
 from PIL import Image
 
 from sectio.cli import cli, main
-from sectio.commands.grains import CSV_COLUMNS
 from sectio.errors import CalibrationWarning
+from sectio.specimen import GRAIN_CSV_COLUMNS as CSV_COLUMNS
 from sectio.stereology import (
     astm_g_from_grains_per_mm2,
     astm_g_from_intercept_um,

@@ -14,9 +14,10 @@ import pytest
 
 from sectio.micrograph import load
 from sectio.particles import measure_particles, summarize_particles
-from sectio.report._io import to_json_text
-from sectio.study import field_key, intercept_lengths_px, load_study, run_study
-from sectio.study._assemble import stored_particle_field
+from sectio.report import to_json_text
+from sectio.specimen import FieldRecord, particles_document
+from sectio.stereology import intercept_lengths_px
+from sectio.study import field_key, load_study, run_study
 
 from .conftest import json_files, run_cli
 
@@ -40,17 +41,18 @@ def test_field_key_depends_on_image_options_and_kind():
 
 
 def test_stored_particle_records_summarise_like_live_fields(study_dir, tmp_path):
-    """summarize_particles on records rebuilt from JSON equals it on live ParticleFields."""
+    """The summary of records rebuilt from JSON equals summarize_particles of live fields."""
     st = load_study(study_dir / "study.toml")
     run_study(st, tmp_path / "out", workers=1, report=False)
     spec = st.specimens[2]
     live = [measure_particles(load(p), seed=0) for p in spec.image_paths]
-    recs = [json.loads((tmp_path / "out" / "fields" / f"{f['key']}.json").read_text())
+    recs = [FieldRecord.from_dict(json.loads(
+                (tmp_path / "out" / "fields" / f"{f['key']}.json").read_text()))
             for f in json.loads((tmp_path / "out" / "study.json").read_text())
             ["specimens"][2]["fields"]]
     ref = json.loads(to_json_text(summarize_particles(live, bootstrap=50, seed=0)))
-    got = json.loads(to_json_text(summarize_particles(
-        [stored_particle_field(r) for r in recs], bootstrap=50, seed=0)))
+    part = particles_document(recs, calibration={}, measure={"seed": 0}, bootstrap=50)
+    got = json.loads(to_json_text(part.doc["summary"]))
     ref["flags"] = got["flags"] = None  # image paths differ (temp copy vs study folder)
     assert got == ref
 

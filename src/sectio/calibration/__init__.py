@@ -24,9 +24,9 @@ from ..errors import CalibrationError, CalibrationWarning, OptionError
 from ._metadata import FileSize, file_sizes, unit_um
 from ._strip import InfoStrip, find_info_strips
 
-__all__ = ["FileSize", "InfoStrip", "MAX_PIXEL_UM", "MIN_PIXEL_UM", "Resolved",
-           "check_pixel_size_um", "file_sizes", "find_info_strips", "resolve_pixel_size",
-           "unit_um", "DISAGREEMENT"]
+__all__ = ["DISAGREEMENT", "ENV_FILE", "MAX_PIXEL_UM", "MIN_PIXEL_UM", "FileSize", "InfoStrip",
+           "Resolved", "calibrate_image", "check_pixel_size_um", "file_sizes",
+           "find_info_strips", "resolve_pixel_size", "unit_um"]
 
 MIN_PIXEL_UM = 1e-4  # 0.1 nm
 MAX_PIXEL_UM = 1e3  # 1 mm
@@ -137,3 +137,8 @@ def resolve_pixel_size(
     details["sources"] = sources
     details["used"] = source
     return Resolved(float(size), source, details, tuple(notes))
+
+
+# After resolve_pixel_size: _apply imports it from this package.
+from ._apply import calibrate_image  # noqa: E402
+from ._objectives import ENV_FILE  # noqa: E402

@@ -11,7 +11,7 @@ import functools
 
 import click
 
-from ..calibration._objectives import ENV_FILE
+from ..calibration import ENV_FILE
 
 
 def calibration_options(func):

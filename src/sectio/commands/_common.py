@@ -1,18 +1,13 @@
-"""Small pieces shared by the command modules (file names, number formatting)."""
+"""Small pieces shared by the command modules (number formatting, the image-memory option)."""
 
 from __future__ import annotations
 
-from pathlib import Path
 
+def echo_skipped(image: str, exc: Exception) -> None:
+    """Say on stderr that a field was skipped, and why."""
+    import click
 
-def overlay_name(path: str, used: set[str]) -> str:
-    """A unique overlay file name for a field (``<stem>_overlay.png``, then ``_2``...)."""
-    stem = Path(path).stem or "field"
-    name, i = f"{stem}_overlay.png", 2
-    while name in used:
-        name, i = f"{stem}_{i}_overlay.png", i + 1
-    used.add(name)
-    return name
+    click.echo(f"{image}: skipped: {exc}", err=True)
 
 
 def fmt(value, spec: str) -> str:

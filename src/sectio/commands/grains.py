@@ -7,30 +7,15 @@ inside the command body.
 
 from __future__ import annotations
 
-import functools
-import os
 import warnings
 from pathlib import Path
 
 import click
 
-from ..errors import CalibrationError, InputError, OptionError
-from ..review.runs import split_rejected
+from ..errors import OptionError
 from ._calibration import calibration_options
+from ._common import echo_skipped, max_image_memory_option
 from ._common import fmt as _fmt
-from ._common import max_image_memory_option, overlay_name
-
-CSV_COLUMNS = [
-    "image",
-    "grain",
-    "area_um2",
-    "ecd_um",
-    "centroid_x_um",
-    "centroid_y_um",
-    "touches_edge",
-]
-
-
 
 
 def _parse_angles(text: str) -> tuple[float, ...]:
@@ -159,23 +144,9 @@ def grains_command(
 
     Example:  sectio grains field*.tif --pixel-size 0.5um --out results
     """
-    from ..grains import SCHEMA, make_options, measure_grains, summarize_grains
-    from ..micrograph import load
-    from ..report import write_csv, write_json
-    from ..report.grains import write_overlay
+    from ..grains import make_options
+    from ..specimen import grains_document, measure_images, write_result
 
-    opts = make_options(
-        boundaries=boundaries,
-        contrast=contrast,
-        min_grain_size=min_grain_size,
-        line_spacing_px=line_spacing,
-        angles_deg=_parse_angles(angles),
-        ridge_scale_px=ridge_scale,
-        gap_px=gap,
-        remove_scratches=not keep_scratches,
-        subregions=subregions,
-    )
-    out = Path(out_dir)
     measure_kwargs = {
         "boundaries": boundaries,
         "contrast": contrast,
@@ -187,89 +158,21 @@ def grains_command(
         "remove_scratches": not keep_scratches,
         "subregions": subregions,
     }
-    results = run_grain_fields(
-        images,
-        opts,
-        out,
-        measure_kwargs=measure_kwargs,
-        pixel_size=pixel_size,
-        scale_bar=scale_bar,
-        crop_bottom=crop_bottom,
-        load=functools.partial(load, **calibration_options),
-        measure=measure_grains,
-        write_overlay=write_overlay,
-    )
-    dicts, rows, failed = results
-    dicts, rejected = split_rejected(dicts)
+    opts = make_options(**measure_kwargs)
+    out = Path(out_dir)
+    calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
+                   **calibration_options}
+    records = measure_images("grains", images, measure_kwargs, calibration=calibration,
+                             out=out, on_skip=echo_skipped, example_pixel_size="0.5um")
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # one-field degeneracy is stated in ci_basis
-        summary = summarize_grains(dicts)
-    doc = {
-        "schema": SCHEMA,
-        "options": {
-            "pixel_size": pixel_size,
-            "scale_bar": scale_bar,
-            "crop_bottom": crop_bottom,
-            **calibration_options,
-            **opts.to_dict(),
-        },
-        "fields": dicts,
-        "summary": summary,
-        "failed": failed,
-        "rejected": rejected,
-    }
-    write_csv(out / "grains.csv", rows, columns=CSV_COLUMNS)
-    write_json(out / "grains.json", doc)
-    print_table(dicts, summary, failed)
-    if failed:
+        part = grains_document(records, calibration=calibration, options=opts, edits=True)
+    write_result(out, part)
+    doc = part.doc
+    print_table(doc["fields"], doc["summary"], doc["failed"])
+    if doc["failed"]:
         ctx.exit(1)
     return 0
-
-
-def run_grain_fields(
-    images, opts, out: Path, *, pixel_size, scale_bar, crop_bottom, load, measure, write_overlay,
-    measure_kwargs=None,
-):
-    """Measure every field (with its hand edits, if any); a field that fails is recorded
-    and the rest go on."""
-    from ..review.runs import apply_edit_file, field_dict, is_rejected, source_entry
-
-    dicts, rows, failed, used, used_edits = [], [], [], set(), set()
-    calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
-                   **getattr(load, "keywords", {})}  # objective, calibration file, keep_strip
-    calibration_failures = 0
-    for path in images:
-        try:
-            mg = load(path, pixel_size=pixel_size, crop_bottom=crop_bottom, scale_bar=scale_bar)
-            edited, edit_name, sha = apply_edit_file("grains", path, measure(mg, opts), out,
-                                                     used_edits)
-            field = edited.field
-        except OptionError:
-            raise  # a usage error: the same for every field
-        except InputError as exc:
-            failed.append({"image": os.fspath(path), "reason": str(exc)})
-            calibration_failures += isinstance(exc, CalibrationError)
-            click.echo(f"{path}: skipped: {exc}", err=True)
-            continue
-        name = overlay_name(path, used)
-        write_overlay(field, out / name)
-        d = field_dict(edited, edit_name)
-        d["overlay_png"] = name
-        if measure_kwargs is not None:
-            d["source"] = source_entry("grains", image_sha=sha, calibration=calibration,
-                                       options=measure_kwargs, edit_file=edit_name)
-        dicts.append(d)
-        if not is_rejected(d):
-            rows.extend(field.grain_table())
-    if not dicts and calibration_failures == len(images) and pixel_size is None:
-        raise CalibrationError(
-            "None of the images carries a pixel size; give --pixel-size (e.g. 0.5um), "
-            "--objective or "
-            "--scale-bar with the bar's length."
-        )
-    return dicts, rows, failed
-
-
 
 
 def print_table(dicts, summary, failed) -> None:

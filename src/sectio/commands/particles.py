@@ -13,17 +13,10 @@ from pathlib import Path
 
 import click
 
-from ..errors import CalibrationError, InputError, OptionError
+from ..errors import OptionError
 from ._calibration import calibration_options
+from ._common import echo_skipped, max_image_memory_option
 from ._common import fmt as _fmt
-from ._common import max_image_memory_option, overlay_name
-
-CSV_COLUMNS = ["image", "particle", "area_um2", "ecd_um", "feret_max_um", "feret_min_um",
-               "aspect_ratio", "centroid_x_um", "centroid_y_um", "cut_by_edge", "weight"]
-
-
-
-
 
 
 @click.command("particles", context_settings={"help_option_names": ["-h", "--help"]})
@@ -61,11 +54,7 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
     Example:  sectio particles field*.tif --pixel-size 0.02um --phase bright --out results
     """
     from .._checks import check_number
-    from ..micrograph import load
-    from ..particles import SCHEMA, measure_particles, summarize_particles
-    from ..report import write_csv, write_json
-    from ..report.particles import write_overlay_png, write_size_distribution_png
-    from ..review.runs import apply_edit_file, field_dict, is_rejected, source_entry, split_rejected
+    from ..specimen import measure_images, particles_document, write_result
     from ..units import parse_length_um
 
     seed = check_number(seed, what="--seed", name="seed")
@@ -76,61 +65,19 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
     foil_um = parse_length_um(foil_thickness, what="--foil-thickness") if foil_thickness \
         else None
     out = Path(out_dir)
-    options = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
-               **calibration_options,
-               "phase": phase, "threshold": threshold, "min_size_um": min_size_um,
-               "split": not no_split, "foil_thickness_um": foil_um, "seed": seed}
-    fields, dicts, failed, rows, used, used_edits = [], [], [], [], set(), set()
-    measure_kwargs = {"phase": phase, "threshold": threshold, "min_size_um": min_size_um,
-                      "split": not no_split, "foil_thickness_um": foil_um, "seed": seed}
     calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
                    **calibration_options}
-    rejected = []
-    calibration_failures = 0
-    for path in images:
-        try:
-            mg = load(path, pixel_size=pixel_size, crop_bottom=crop_bottom, scale_bar=scale_bar,
-                      **calibration_options)
-            edited, edit_name, sha = apply_edit_file(
-                "particles", path, measure_particles(mg, **measure_kwargs), out, used_edits)
-            f = edited.field
-        except OptionError:
-            raise  # a usage error: the same for every field
-        except InputError as exc:
-            failed.append({"image": os.fspath(path), "reason": str(exc)})
-            calibration_failures += isinstance(exc, CalibrationError) and scale_bar is None
-            click.echo(f"{path}: skipped: {exc}", err=True)
-            continue
-        overlay = overlay_name(path, used)
-        write_overlay_png(out / overlay, f)
-        d = field_dict(edited, edit_name)
-        d["overlay_png"] = overlay
-        d["source"] = source_entry("particles", image_sha=sha, calibration=calibration,
-                                   options=measure_kwargs, edit_file=edit_name)
-        if is_rejected(d):
-            rejected.extend(split_rejected([d])[1])
-            continue
-        fields.append(f)
-        dicts.append(d)
-        rows.extend({"image": os.fspath(path), **r} for r in f.table.rows(mg.pixel_size_um))
-    if not fields and calibration_failures == len(images) and pixel_size is None:
-        raise CalibrationError(
-            "None of the images carries a pixel size; give --pixel-size (e.g. 0.02um), "
-            "--objective or "
-            "--scale-bar with the bar's length."
-        )
+    measure = {"phase": phase, "threshold": threshold, "min_size_um": min_size_um,
+               "split": not no_split, "foil_thickness_um": foil_um, "seed": seed}
+    records = measure_images("particles", images, measure, calibration=calibration, out=out,
+                             on_skip=echo_skipped, example_pixel_size="0.02um")
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # single-field degeneracy is reported in "basis"
-        summary = summarize_particles(fields, seed=seed)
-    doc = {"schema": SCHEMA, "options": {**options, **(fields[0].options if fields else {})},
-           "fields": dicts, "summary": summary, "failed": failed, "rejected": rejected}
-    write_csv(out / "particles.csv", rows, columns=CSV_COLUMNS)
-    if fields:
-        write_size_distribution_png(out / "size_distribution.png", fields, summary)
-        doc["size_distribution_png"] = "size_distribution.png"
-    write_json(out / "particles.json", doc)
-    _print_table(fields, summary, failed)
-    if failed:
+        part = particles_document(records, calibration=calibration, measure=measure, edits=True)
+    write_result(out, part)
+    doc = part.doc
+    _print_table(doc["fields"], doc["summary"], doc["failed"])
+    if doc["failed"]:
         ctx.exit(1)
     return 0
 
@@ -139,11 +86,11 @@ def _print_table(fields, summary, failed) -> None:
     click.echo(f"{'field':<28} {'A_A %':>7} {'P_P %':>7} {'N':>6} {'N_A /um2':>9} "
                f"{'ECD um':>8} {'lambda um':>9}  flags")
     for f in fields:
-        flag = "; ".join(f.flags)
-        click.echo(f"{f.micrograph.name[:28]:<28} {100 * f.area_fraction:7.2f} "
-                   f"{100 * f.point_fraction:7.2f} {f.particles_counted:6d} "
-                   f"{f.particles_per_um2:9.4g} {_fmt(f.mean_ecd_um, '8.4g')} "
-                   f"{_fmt(f.mean_free_path_um, '9.4g')}  {flag}")
+        flag = "; ".join(f["flags"])
+        click.echo(f"{os.path.basename(f['image'])[:28]:<28} {100 * f['area_fraction']:7.2f} "
+                   f"{100 * f['point_fraction']:7.2f} {f['particles_counted']:6d} "
+                   f"{f['particles_per_um2']:9.4g} {_fmt(f['mean_ecd_um'], '8.4g')} "
+                   f"{_fmt(f['mean_free_path_um'], '9.4g')}  {flag}")
     for fl in failed:
         click.echo(f"{Path(fl['image']).name[:28]:<28} failed: {fl['reason']}")
     if fields:

@@ -1,7 +1,7 @@
 """One self-contained HTML file per study: figures embedded as base64, inline CSS, no script.
 
-The report is rendered from study.json, the per-specimen documents and the stored field
-records (:func:`load_report_data`); it never recomputes a measurement. The same data feeds
+The report is rendered from the study document and the per-specimen documents as built in
+memory (:func:`report_data`); it never recomputes a measurement. The same data feeds
 the PDF (:mod:`sectio.report.pdf`). Plain string building with :func:`html.escape`; no
 template engine.
 """
@@ -11,14 +11,14 @@ from __future__ import annotations
 import base64
 import html
 import io
-import json
 import os
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from ._io import atomic_write_text
 
-__all__ = ["ReportData", "SpecimenData", "load_report_data", "render_html",
+__all__ = ["ReportData", "SpecimenData", "report_data", "render_html",
            "write_html_report", "fmt", "fmt_ci"]
 
 GENERAL_CAUTION = (
@@ -88,40 +88,37 @@ class ReportData:
     specimens: list[SpecimenData]
 
 
-def _read_json(path: Path):
-    try:
-        return json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return None
+def report_data(study_doc: dict, documents: Mapping[str, Mapping],
+                out_dir: str | os.PathLike) -> ReportData:
+    """Collect what the report shows: the study document and the in-memory documents.
 
+    ``documents[name]`` holds the specimen's ``grains`` and ``particles``
+    (:class:`sectio.specimen.ResultDocument` or None) and ``strength`` (document or None),
+    as :func:`sectio.study.run_study` builds them; only the overlay pictures are read from
+    ``out_dir``. Values are taken as written to JSON (NaN as None).
+    """
+    from ._io import jsonable
 
-def load_report_data(study_doc: dict, out_dir: str | os.PathLike) -> ReportData:
-    """Collect what the report shows from the files of a study's output folder."""
     out = Path(out_dir)
     specs = []
     for e in study_doc["specimens"]:
         sd = SpecimenData(entry=e)
-        files = e.get("files", {})
-        sd.grains = _read_json(out / files["grains"]) if "grains" in files else None
-        sd.particles = _read_json(out / files["particles"]) if "particles" in files else None
-        sd.strength = _read_json(out / files["strength"]) if "strength" in files else None
+        d = documents[e["name"]]
+        grains, particles = d.get("grains"), d.get("particles")
+        sd.grains = jsonable(grains.doc) if grains is not None else None
+        sd.particles = jsonable(particles.doc) if particles is not None else None
+        sd.strength = jsonable(d["strength"]) if d.get("strength") is not None else None
         gf = (sd.grains or {}).get("fields") or []
         px = {f.get("pixel_size_um") for f in gf}
         sd.pixel_size_um = px.pop() if len(px) == 1 else None
         for kind, doc in (("grains", sd.grains), ("particles", sd.particles)):
             for f in (doc or {}).get("fields", []):
                 sd.overlays.append((f"{kind}: {f['image']}", out / e["name"] / f["overlay_png"]))
-        for f in e.get("fields", []):
-            if f["status"] != "ok":
-                continue
-            rec = _read_json(out / "fields" / f"{f['key']}.json") or {}
-            if f["kind"] == "grains":
-                sd.intercepts_um.extend(rec.get("intercepts_um", []))
-            else:
-                for r in rec.get("rows", []):
-                    if not r["cut_by_edge"]:
-                        sd.particle_ecd_um.append(r["ecd_um"])
-                        sd.particle_weights.append(r["weight"])
+        if grains is not None:
+            sd.intercepts_um = grains.intercepts_um()
+        if particles is not None:
+            ecd, weights = particles.whole_sections()
+            sd.particle_ecd_um, sd.particle_weights = ecd.tolist(), weights.tolist()
         specs.append(sd)
     return ReportData(study_doc, specs)
 
@@ -379,7 +376,6 @@ def render_html(data: ReportData) -> str:
     return "\n".join(parts)
 
 
-def write_html_report(path: str | os.PathLike, study_doc: dict,
-                      out_dir: str | os.PathLike) -> Path:
-    """Render the study report and write it atomically to ``path``."""
-    return atomic_write_text(path, render_html(load_report_data(study_doc, out_dir)))
+def write_html_report(path: str | os.PathLike, data: ReportData) -> Path:
+    """Render the study report (see :func:`report_data`) and write it atomically."""
+    return atomic_write_text(path, render_html(data))

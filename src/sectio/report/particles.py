@@ -1,7 +1,8 @@
-"""Pictures of a particle measurement: overlay per field and size-distribution figure.
+"""The size-distribution figure of a particle measurement (the overlay is
+:meth:`sectio.particles.ParticleField.overlay`).
 
-Both are written atomically as PNG; matplotlib (Agg) is imported only when a figure is
-drawn. The figure is drawn from the measurement's numbers, never recomputed.
+Written atomically as PNG; matplotlib (Agg) is imported only when it is drawn. It is drawn
+from the pooled size distribution the summary was computed from, never recomputed.
 """
 
 from __future__ import annotations
@@ -11,34 +12,28 @@ import os
 
 import numpy as np
 
-from ._io import atomic_write_bytes, png_bytes
+from ._io import atomic_write_bytes
 
-__all__ = ["write_overlay_png", "write_size_distribution_png"]
-
-
-def write_overlay_png(path: str | os.PathLike, field) -> None:
-    """Overlay of one :class:`sectio.particles.ParticleField` (outlines, split lines)."""
-    atomic_write_bytes(path, png_bytes(field.overlay()))
+__all__ = ["write_size_distribution_png"]
 
 
-def write_size_distribution_png(path: str | os.PathLike, fields, summary: dict) -> None:
-    """Size-distribution figure of all fields together.
+def write_size_distribution_png(path: str | os.PathLike, sizes, *, area_um2: float,
+                                n_fields: int, summary: dict) -> None:
+    """Size-distribution figure of all fields of a specimen together.
 
-    Panels: ECD histogram (linear bins) with the log-normal fit; ECD histogram on
-    logarithmic bins; cumulative number fraction with D10/D50/D90; the Saltykov
-    sphere-diameter distribution (number per µm³ per class).
+    ``sizes`` is the pooled :class:`sectio.stereology.SizeDistribution` of the whole
+    particles (edge-weighted) that the summary was computed from; ``area_um2`` the total
+    field area. Panels: ECD histogram (linear bins) with the log-normal fit; ECD histogram
+    on logarithmic bins; cumulative number fraction with D10/D50/D90; the Saltykov
+    sphere-diameter distribution (number per µm³ per class) from ``summary["unfolding"]``.
     """
     from matplotlib.figure import Figure  # Agg canvas; pyplot is never imported
 
-    from ..stereology import size_distribution
-
-    ecd = np.concatenate([f.table.ecd_um[~f.table.edge] for f in fields]) if fields else []
-    wts = np.concatenate([f.table.weight[~f.table.edge] for f in fields]) if fields else []
-    sd = size_distribution(ecd, wts)
-    area = sum(f.micrograph.area_um2 for f in fields) or 1.0
+    sd = sizes
+    area = area_um2 or 1.0
     fig = Figure(figsize=(11, 8), dpi=100)
     axes = fig.subplots(2, 2)
-    n_txt = f"{sd.n} whole particles, {len(fields)} field(s), edge-weighted"
+    n_txt = f"{sd.n} whole particles, {n_fields} field(s), edge-weighted"
     ax = axes[0, 0]
     if sd.n:
         widths = np.diff(sd.linear_edges_um)

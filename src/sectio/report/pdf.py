@@ -23,7 +23,7 @@ from .figures import (
     strength_figure,
     trend_figure,
 )
-from .html import GENERAL_CAUTION, HOW_TO_READ, ReportData, _trial, fmt, fmt_ci, load_report_data
+from .html import GENERAL_CAUTION, HOW_TO_READ, ReportData, _trial, fmt, fmt_ci
 
 __all__ = ["write_pdf_report"]
 
@@ -167,12 +167,11 @@ def _specimen_pages(sd):
     return pages
 
 
-def write_pdf_report(path: str | os.PathLike, study_doc: dict,
-                     out_dir: str | os.PathLike) -> Path:
-    """Write the PDF report atomically (temp file in the same folder, then rename)."""
+def write_pdf_report(path: str | os.PathLike, data: ReportData) -> Path:
+    """Write the PDF report (see :func:`sectio.report.html.report_data`) atomically."""
     from matplotlib.backends.backend_pdf import PdfPages
 
-    data = load_report_data(study_doc, out_dir)
+    study_doc = data.study
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)

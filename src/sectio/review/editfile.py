@@ -117,7 +117,7 @@ def read_edit_file(path: str | os.PathLike, *, image_sha: str | None = None) -> 
 
 
 def write_edit_file(path: str | os.PathLike, doc: dict) -> None:
-    from ..report._io import write_json
+    from ..report import write_json
 
     write_json(Path(path), doc)
 

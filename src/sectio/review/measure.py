@@ -87,11 +87,11 @@ def remeasure(kind: str, field, edited: EditedLabels):
         return grain_field_from_labels(field.micrograph, edited.labels.astype(np.int32),
                                        field.options, field.segmentation)
     from ..particles import particle_field_from_segmentation
-    from ..segment.particles import _split_lines
+    from ..segment import split_lines
 
     labels = edited.labels.astype(np.int32)
     seg = replace(field.segmentation, labels=labels, mask=labels > 0,
-                  split_lines=_split_lines(labels))
+                  split_lines=split_lines(labels))
     o = field.options
     return particle_field_from_segmentation(
         field.micrograph, seg, phase=o.get("phase", "bright"), floor_um=o["min_size_um"],

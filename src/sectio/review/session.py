@@ -361,8 +361,7 @@ def _particle_summary(dicts: list[dict]) -> dict:
     """Area fraction and mean ECD over the fields, the same statistics as
     :func:`sectio.particles.summarize_particles` (Student t over fields; sub-regions of a
     single field), from the fields' JSON entries."""
-    from ..stereology import field_statistics, stats_to_dict
-    from ..stereology._particle_summary import _from_subregions
+    from ..stereology import field_statistics, stats_to_dict, subregion_statistics
 
     out: dict = {"n_fields": len(dicts)}
     if not dicts:
@@ -373,7 +372,8 @@ def _particle_summary(dicts: list[dict]) -> dict:
         if len(dicts) >= 2 and len(vals) >= 2:
             st = field_statistics(vals, basis="fields")
         elif len(dicts) == 1:
-            st = _from_subregions(dicts[0].get(q), (dicts[0].get("subregions") or {}).get(q, []))
+            tiles = (dicts[0].get("subregions") or {}).get(q, [])
+            st = subregion_statistics(dicts[0].get(q), tiles)
         else:
             st = None
         if st is not None:

@@ -1,7 +1,7 @@
 """Segmentation: micrograph -> grain label map, or particle mask and labels."""
 
 from .grains import GrainSegmentation, GrainSegmentOptions, segment_grains
-from .particles import MOSTLY_PARTICLE, ParticleSegmentation, segment_particles
+from .particles import MOSTLY_PARTICLE, ParticleSegmentation, segment_particles, split_lines
 
 __all__ = [
     "MOSTLY_PARTICLE",
@@ -10,4 +10,5 @@ __all__ = [
     "ParticleSegmentation",
     "segment_grains",
     "segment_particles",
+    "split_lines",
 ]

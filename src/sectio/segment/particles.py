@@ -233,13 +233,13 @@ def segment_particles(
     else:
         labels, _ = ndi.label(mask, structure=np.ones((3, 3)))
     labels = labels.astype(np.int32)
-    split_lines = _split_lines(labels)
+    lines = split_lines(labels)
     n_comp = ndi.label(mask, structure=np.ones((3, 3)))[1]
     n_split = int(labels.max()) - int(n_comp)
     reported_t = None if t is None else (1.0 - t if phase == "dark" else t)
     out_flat = 1.0 - flat if phase == "dark" else flat
     return ParticleSegmentation(
-        mask=mask, labels=labels, split_lines=split_lines, flattened=out_flat.astype(np.float32),
+        mask=mask, labels=labels, split_lines=lines, flattened=out_flat.astype(np.float32),
         threshold=reported_t, threshold_method=method,
         matrix_level=float(1.0 - matrix if phase == "dark" else matrix),
         particle_level=None if particle is None else float(
@@ -253,7 +253,7 @@ def segment_particles(
     )
 
 
-def _split_lines(labels: np.ndarray) -> np.ndarray:
+def split_lines(labels: np.ndarray) -> np.ndarray:
     """Pixels of a particle that touch a different particle (4-neighbours)."""
     out = np.zeros(labels.shape, bool)
     a, b = labels[:, :-1], labels[:, 1:]

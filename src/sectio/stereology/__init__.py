@@ -23,8 +23,14 @@ from ._grainsize import (
     intercept_um_from_astm_g,
     iso643_g_from_grains_per_mm2,
 )
-from ._intercepts import InterceptCount, circle_centres, count_crossings, mean_lineal_intercept
-from ._particle_summary import summarize_particle_fields
+from ._intercepts import (
+    InterceptCount,
+    circle_centres,
+    count_crossings,
+    intercept_lengths_px,
+    mean_lineal_intercept,
+)
+from ._particle_summary import subregion_statistics, summarize_particle_fields
 from ._particles import (
     ParticleTable,
     feret_diameters,
@@ -62,6 +68,7 @@ __all__ = [
     "grain_areas_px",
     "grains_per_mm2_from_astm_g",
     "intercept_density",
+    "intercept_lengths_px",
     "intercept_um_from_astm_g",
     "iso643_g_from_grains_per_mm2",
     "lognormal_fit",
@@ -76,6 +83,7 @@ __all__ = [
     "split_unit",
     "stat_key",
     "stats_to_dict",
+    "subregion_statistics",
     "summarize_particle_fields",
     "t_critical",
     "unfold_sections",

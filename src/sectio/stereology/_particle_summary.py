@@ -13,10 +13,12 @@ into one Schwartz–Saltykov unfolding; its interval comes from a bootstrap over
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
+
 import numpy as np
 
 from ._fieldstats import FieldStats, field_statistics, stats_to_dict, t_critical
-from ._sizes import size_distribution
+from ._sizes import SizeDistribution, size_distribution
 from ._unfolding import unfold_sections
 
 #: quantities summarised over fields (name in ParticleField.to_dict())
@@ -27,7 +29,9 @@ QUANTITIES = ("area_fraction", "volume_fraction", "point_fraction", "particles_p
 SUBREGION_QUANTITIES = ("area_fraction", "particles_per_um2", "mean_ecd_um")
 
 
-def _from_subregions(value, tile_values) -> FieldStats | None:
+def subregion_statistics(value, tile_values) -> FieldStats | None:
+    """Statistics of one field from its sub-region values, centred on the field's value
+    (labelled ``"sub-regions of one field"``; None with fewer than two tiles)."""
     x = np.asarray([v for v in tile_values if v is not None], float)
     if value is None or x.size < 2:
         return None
@@ -49,16 +53,12 @@ def _keys(name: str, st: FieldStats) -> dict:
     return d
 
 
-def _pooled_unfolding(fields, rng, n_boot):
-    ecd, wts, area, floor, k = [], [], 0.0, 0.0, 12
-    groups = []
-    for f in fields:
-        whole = ~f.table.edge
-        groups.append((f.table.ecd_um[whole], f.table.weight[whole]))
-        area += f.micrograph.area_um2
-        floor = max(floor, f.options["min_size_um"])
-        k = f.options["n_classes"]
-    foil = fields[0].options.get("foil_thickness_um") or 0.0
+def _pooled_unfolding(results, options, sections, rng, n_boot):
+    area = float(sum(r["field_area_um2"] for r in results))
+    floor = max([0.0, *(o["min_size_um"] for o in options)])
+    k = options[-1]["n_classes"] if options else 12
+    foil = options[0].get("foil_thickness_um") or 0.0
+    groups = [(np.asarray(e, float), np.asarray(w, float)) for e, w in sections]
     ecd = np.concatenate([g[0] for g in groups])
     wts = np.concatenate([g[1] for g in groups])
     if ecd.size == 0:
@@ -85,9 +85,39 @@ def _pooled_unfolding(fields, rng, n_boot):
     return unf, None, None, ecd, wts
 
 
-def summarize_particle_fields(fields, *, bootstrap: int = 200, seed: int = 0) -> dict:
-    """Summary dictionary of a list of :class:`sectio.particles.ParticleField`."""
-    n = len(fields)
+def summarize_particle_fields(
+    results: Sequence[Mapping],
+    options: Sequence[Mapping],
+    sections: Sequence[tuple],
+    *,
+    bootstrap: int = 200,
+    seed: int = 0,
+    sizes: SizeDistribution | None = None,
+) -> dict:
+    """Summary over fields of particle measurements (the ``summary`` of particles.json).
+
+    Parameters
+    ----------
+    results : sequence of dict
+        Per-field documents (:meth:`sectio.particles.ParticleField.to_dict`).
+    options : sequence of dict
+        Per-field measurement options (``min_size_um``, ``n_classes``,
+        ``foil_thickness_um``), as in ``ParticleField.options``.
+    sections : sequence of (ecd_um, weight)
+        Per field, the equivalent circle diameters and Miles–Lantuéjoul weights of the
+        whole particles (not cut by the field edge).
+    bootstrap : int
+        Resamples of the pooled sphere-size interval.
+    seed : int
+        Seed of the bootstrap.
+    sizes : SizeDistribution, optional
+        The size distribution of the pooled sections if the caller already has it.
+
+    Returns
+    -------
+    dict
+    """
+    n = len(results)
     out: dict = {"n_fields": n}
     if n == 0:
         return out
@@ -95,30 +125,31 @@ def summarize_particle_fields(fields, *, bootstrap: int = 200, seed: int = 0) ->
         basis = "fields"
         out["dof"] = n - 1
         for q in QUANTITIES:
-            vals = [getattr(f, q) for f in fields]
+            vals = [r.get(q) for r in results]
             st = field_statistics([v for v in vals if v is not None], basis=basis) \
                 if sum(v is not None for v in vals) >= 2 else None
             if st is not None:
                 out.update(_keys(q, st))
     else:
-        f = fields[0]
+        f = results[0]
         basis = "sub-regions of one field"
-        tiles = f.subregions
+        tiles = f["subregions"]
         n_tiles = len(tiles["area_fraction"])
         out["dof"] = n_tiles - 1
         for q in QUANTITIES:
-            value = getattr(f, q)
-            st = _from_subregions(value, tiles[q]) if q in SUBREGION_QUANTITIES else None
+            value = f.get(q)
+            st = subregion_statistics(value, tiles[q]) if q in SUBREGION_QUANTITIES else None
             if st is not None:
                 out.update(_keys(q, st))
             else:
                 out[q] = value
-        if f.volume_fraction != f.area_fraction and "area_fraction_ci95" in out:
-            ratio = f.volume_fraction / f.area_fraction if f.area_fraction else 1.0
+        vf, af = f["volume_fraction"], f["area_fraction"]
+        if vf != af and "area_fraction_ci95" in out:
+            ratio = vf / af if af else 1.0
             out["volume_fraction_ci95"] = [v * ratio for v in out["area_fraction_ci95"]]
     out["basis"] = basis
     rng = np.random.default_rng(seed)
-    unf, se, ci, ecd, wts = _pooled_unfolding(fields, rng, bootstrap)
+    unf, se, ci, ecd, wts = _pooled_unfolding(results, options, sections, rng, bootstrap)
     if unf is not None:
         out["mean_sphere_diameter_um"] = unf.mean_sphere_diameter_um
         out["mean_sphere_diameter_se_um"] = se
@@ -126,10 +157,10 @@ def summarize_particle_fields(fields, *, bootstrap: int = 200, seed: int = 0) ->
         out["mean_sphere_diameter_basis"] = f"bootstrap over particles ({bootstrap} resamples)"
         out["spheres_per_um3"] = unf.number_per_um3
         out["unfolding"] = unf.to_dict()
-        sd = size_distribution(ecd, wts)
+        sd = sizes if sizes is not None else size_distribution(ecd, wts)
         out.update({"d10_um": sd.d10_um, "d50_um": sd.d50_um, "d90_um": sd.d90_um,
                     "lognormal": sd.lognormal})
-    out["particles_counted"] = int(sum(f.particles_counted for f in fields))
-    out["particle_count"] = int(sum(f.particle_count for f in fields))
-    out["flags"] = [{"image": f.micrograph.path, "flag": fl} for f in fields for fl in f.flags]
+    out["particles_counted"] = int(sum(r["particles_counted"] for r in results))
+    out["particle_count"] = int(sum(r["particle_count"] for r in results))
+    out["flags"] = [{"image": r["image"], "flag": fl} for r in results for fl in r["flags"]]
     return out

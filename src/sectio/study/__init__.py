@@ -6,9 +6,9 @@
 
 Parts: :mod:`._studyfile` (parse and check the study file, errors with line and key),
 :mod:`._work` (one field in a worker; content-hash keys), :mod:`._executors` (local
-processes or a Dask cluster), :mod:`._assemble` (per-specimen documents and trends from
-stored records), :mod:`._runner` (plan, skip, run, write), :mod:`._trends` (LSW coarsening
-and parabolic grain-growth fits).
+processes or a Dask cluster), :mod:`._assemble` (per-specimen documents through
+:mod:`sectio.specimen`, and trends, from stored records), :mod:`._runner` (plan, skip, run,
+write), :mod:`._trends` (LSW coarsening and parabolic grain-growth fits).
 """
 
 from __future__ import annotations
@@ -23,11 +23,11 @@ from ._trends import (
     fit_lsw,
     fit_parabolic_growth,
 )
-from ._work import FieldTask, field_key, intercept_lengths_px, run_field
+from ._work import FieldTask, field_key, run_field
 
 __all__ = [
     "CoarseningFit", "FieldTask", "GrainGrowthFit", "LineFit", "Specimen", "Study", "StudyRun",
     "TrialVariable", "field_key", "fit_line", "fit_lsw", "fit_parabolic_growth",
-    "intercept_lengths_px", "key_lines", "load_study", "parse_study", "plan_fields",
+    "key_lines", "load_study", "parse_study", "plan_fields",
     "run_field", "run_study",
 ]

@@ -1,15 +1,13 @@
-"""Per-specimen documents and the study document, built from stored field records.
+"""Per-specimen documents and the study's trends, built from stored field records.
 
-Everything here is computed from the JSON records in DIR/fields/, never from live objects,
-so a resumed run and an uninterrupted one give byte-identical documents.
+Everything here is computed from the JSON records in DIR/fields/ (through
+:mod:`sectio.specimen`, as the single commands are), never from live objects, so a resumed
+run and an uninterrupted one give byte-identical documents.
 """
 
 from __future__ import annotations
 
 import warnings
-from types import SimpleNamespace
-
-import numpy as np
 
 from ..errors import InputError
 from ._studyfile import Specimen, Study
@@ -17,121 +15,37 @@ from ._trends import fit_lsw, fit_parabolic_growth
 
 STUDY_SCHEMA = "sectio/study@1"
 
-GRAIN_CSV_COLUMNS = ["image", "grain", "area_um2", "ecd_um", "centroid_x_um", "centroid_y_um",
-                     "touches_edge"]
-PARTICLE_CSV_COLUMNS = ["image", "particle", "area_um2", "ecd_um", "feret_max_um",
-                        "feret_min_um", "aspect_ratio", "centroid_x_um", "centroid_y_um",
-                        "cut_by_edge", "weight"]
-
-
-class _Table(SimpleNamespace):
-    pass
-
-
-
-def _more_calibration(cal: dict) -> dict:
-    """Objective, calibration file, keep_strip: the calibration keys beyond the first three."""
-    return {k: v for k, v in cal.items() if k not in ("pixel_size", "scale_bar", "crop_bottom")}
-
-def stored_particle_field(record: dict):
-    """An object with the attributes :func:`sectio.particles.summarize_particles` and
-    :func:`sectio.report.particles.write_size_distribution_png` read, rebuilt from a stored
-    field record (its per-field dict and per-particle rows)."""
-    d = record["result"]
-    rows = record["rows"]
-    table = _Table(
-        edge=np.array([bool(r["cut_by_edge"]) for r in rows], bool),
-        ecd_um=np.array([r["ecd_um"] for r in rows], float),
-        weight=np.array([r["weight"] for r in rows], float),
-    )
-    attrs = {k: d.get(k) for k in (
-        "area_fraction", "volume_fraction", "point_fraction", "particles_per_um2", "mean_ecd_um",
-        "mean_feret_max_um", "intercepts_per_um", "mean_free_path_um", "mean_nn_distance_um",
-        "centre_spacing_um", "particles_counted", "particle_count", "subregions")}
-    return SimpleNamespace(
-        **attrs, flags=tuple(d.get("flags", [])), table=table,
-        options=record["measure_options"],
-        micrograph=SimpleNamespace(path=d["image"], area_um2=d["field_area_um2"],
-                                   name=d["image"].rsplit("/", 1)[-1]),
-    )
-
-
-def _overlay_name(image: str, suffix: str, used: set[str]) -> str:
-    stem = image.rsplit("/", 1)[-1].rsplit(".", 1)[0] or "field"
-    name, i = f"{stem}{suffix}.png", 2
-    while name in used:
-        name, i = f"{stem}_{i}{suffix}.png", i + 1
-    used.add(name)
-    return name
-
 
 def specimen_documents(study: Study, spec: Specimen, records: dict[str, list[dict]]) -> dict:
     """grains / particles / strength documents of one specimen.
 
-    ``records[kind]`` lists the field records of that kind in image order. Returns a dict
-    with keys ``grains``, ``particles`` (each ``{"doc", "csv_rows", "overlays"}`` or None),
-    ``strength`` (document or None), ``strength_error`` and ``warnings``.
+    ``records[kind]`` lists the stored field records of that kind in image order. Returns a
+    dict with keys ``grains``, ``particles`` (each a :class:`sectio.specimen.ResultDocument`
+    or None), ``strength`` (document or None), ``strength_error`` and ``warnings``.
     """
-    from ..grains import SCHEMA as GRAINS_SCHEMA
-    from ..grains import make_options, summarize_grains
-    from ..particles import SCHEMA as PARTICLES_SCHEMA
-    from ..particles import summarize_particles
+    from ..grains import make_options
+    from ..specimen import FieldRecord, grains_document, overlay_suffix, particles_document
 
     out: dict = {"grains": None, "particles": None, "strength": None, "strength_error": None,
                  "warnings": []}
     used: set[str] = set()
     cal = spec.calibration
-    suffix = {"grains": "_overlay", "particles": "_overlay"}
-    if len(spec.measure) > 1:
-        suffix = {"grains": "_grains_overlay", "particles": "_particles_overlay"}
     caught_all: list[str] = []
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         if "grains" in spec.measure:
-            recs = records.get("grains", [])
-            ok = [r for r in recs if r["status"] == "ok"]
-            dicts, rows, overlays = [], [], {}
-            for r in ok:
-                name = _overlay_name(r["image"], suffix["grains"], used)
-                overlays[name] = r["key"]
-                dicts.append({**r["result"], "overlay_png": name})
-                rows.extend(r["rows"])
+            recs = [FieldRecord.from_dict(r) for r in records.get("grains", [])]
             opts = make_options(**{**spec.grain_options, **(
                 {"angles_deg": tuple(spec.grain_options["angles_deg"])}
                 if "angles_deg" in spec.grain_options else {})})
-            doc = {"schema": GRAINS_SCHEMA,
-                   "options": {"pixel_size": cal["pixel_size"], "scale_bar": cal["scale_bar"],
-                               "crop_bottom": cal["crop_bottom"], **_more_calibration(cal),
-                               **opts.to_dict()},
-                   "fields": dicts, "summary": summarize_grains(dicts),
-                   "failed": [{"image": r["image"], "reason": r["reason"]}
-                              for r in recs if r["status"] != "ok"]}
-            out["grains"] = {"doc": doc, "csv_rows": rows, "overlays": overlays}
+            out["grains"] = grains_document(recs, calibration=cal, options=opts, used=used,
+                                            suffix=overlay_suffix("grains", spec.measure))
         if "particles" in spec.measure:
-            recs = records.get("particles", [])
-            ok = [r for r in recs if r["status"] == "ok"]
-            fields = [stored_particle_field(r) for r in ok]
-            dicts, rows, overlays = [], [], {}
-            for r in ok:
-                name = _overlay_name(r["image"], suffix["particles"], used)
-                overlays[name] = r["key"]
-                dicts.append({**r["result"], "overlay_png": name})
-                rows.extend({"image": r["image"], **row} for row in r["rows"])
-            po = spec.particle_options
-            options = {"pixel_size": cal["pixel_size"], "scale_bar": cal["scale_bar"],
-                       "crop_bottom": cal["crop_bottom"], **_more_calibration(cal),
-                       "phase": po.get("phase", "bright"),
-                       "threshold": po.get("threshold"), "min_size_um": po.get("min_size_um"),
-                       "split": po.get("split", True),
-                       "foil_thickness_um": po.get("foil_thickness_um"), "seed": study.seed,
-                       **(ok[0]["measure_options"] if ok else {})}
-            summary = summarize_particles(fields, bootstrap=study.bootstrap, seed=study.seed)
-            doc = {"schema": PARTICLES_SCHEMA, "options": options, "fields": dicts,
-                   "summary": summary,
-                   "failed": [{"image": r["image"], "reason": r["reason"]}
-                              for r in recs if r["status"] != "ok"]}
-            out["particles"] = {"doc": doc, "csv_rows": rows, "overlays": overlays,
-                                "fields": fields}
+            recs = [FieldRecord.from_dict(r) for r in records.get("particles", [])]
+            out["particles"] = particles_document(
+                recs, calibration=cal, measure={**spec.particle_options, "seed": study.seed},
+                bootstrap=study.bootstrap, used=used,
+                suffix=overlay_suffix("particles", spec.measure))
         caught_all.extend(str(w.message) for w in caught)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -146,8 +60,8 @@ def _strength(study: Study, spec: Specimen, docs: dict):
 
     if spec.material is None:
         return None, "no material given in the study file: no strength estimate."
-    g = docs["grains"]["doc"]["summary"] if docs["grains"] else None
-    p = docs["particles"]["doc"]["summary"] if docs["particles"] else None
+    g = docs["grains"].doc["summary"] if docs["grains"] else None
+    p = docs["particles"].doc["summary"] if docs["particles"] else None
     g = g if g and g.get("n_fields") else None
     p = p if p and p.get("n_fields") else None
     if g is None and p is None:
@@ -183,8 +97,8 @@ def trend_points(study: Study, docs_by_specimen: dict[str, dict]) -> list[dict]:
         pts = []
         for s in specs:
             d = docs_by_specimen[s.name]
-            g = d["grains"]["doc"]["summary"] if d["grains"] else None
-            p = d["particles"]["doc"]["summary"] if d["particles"] else None
+            g = d["grains"].doc["summary"] if d["grains"] else None
+            p = d["particles"].doc["summary"] if d["particles"] else None
             st = d["strength"]
             g = g if g and g.get("n_fields") else None
             p = p if p and p.get("n_fields") else None

@@ -20,14 +20,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .. import __version__
-from ..report import atomic_write_bytes, to_json_text, write_csv, write_json
-from ._assemble import (
-    GRAIN_CSV_COLUMNS,
-    PARTICLE_CSV_COLUMNS,
-    STUDY_SCHEMA,
-    specimen_documents,
-    trend_points,
-)
+from ..report import atomic_write_bytes, to_json_text, write_json
+from ..specimen import write_result
+from ._assemble import STUDY_SCHEMA, specimen_documents, trend_points
 from ._studyfile import Study
 from ._work import RECORD_SCHEMA, FieldTask, field_key
 
@@ -220,22 +215,14 @@ def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = Tru
         docs[spec.name] = d
         sdir = out / spec.name
         files = {}
-        for kind, csv_cols in (("grains", GRAIN_CSV_COLUMNS),
-                               ("particles", PARTICLE_CSV_COLUMNS)):
+        for kind in ("grains", "particles"):
             part = d[kind]
             if part is None:
                 continue
-            for name, key in part["overlays"].items():
-                src = fields_dir / f"{key}.png"
+            for name, rec in part.overlays.items():
+                src = fields_dir / f"{rec.key}.png"
                 atomic_write_bytes(sdir / name, src.read_bytes())
-            if kind == "particles" and part["fields"]:
-                from ..report.particles import write_size_distribution_png
-
-                write_size_distribution_png(sdir / "size_distribution.png", part["fields"],
-                                            part["doc"]["summary"])
-                part["doc"]["size_distribution_png"] = "size_distribution.png"
-            write_csv(sdir / f"{kind}.csv", part["csv_rows"], columns=csv_cols)
-            write_json(sdir / f"{kind}.json", part["doc"])
+            write_result(sdir, part)
             files[kind] = f"{spec.name}/{kind}.json"
         if d["strength"] is not None:
             write_json(sdir / "strength.json", d["strength"])
@@ -249,8 +236,8 @@ def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = Tru
             "files": files,
             "fields": [{"kind": kind, "image": r["image"], "key": r["key"],
                         "status": r["status"]} for kind, rs in recs.items() for r in rs],
-            "grains": d["grains"]["doc"]["summary"] if d["grains"] else None,
-            "particles": ({k: v for k, v in d["particles"]["doc"]["summary"].items()
+            "grains": d["grains"].doc["summary"] if d["grains"] else None,
+            "particles": ({k: v for k, v in d["particles"].doc["summary"].items()
                            if k != "unfolding"} if d["particles"] else None),
             "strength": None if st is None else {
                 k: st[k] for k in ("yield_mpa", "contributions_mpa", "variance_share",
@@ -274,9 +261,10 @@ def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = Tru
     }
     write_json(out / "study.json", doc)
     if report:
-        from ..report.html import write_html_report
+        from ..report.html import report_data, write_html_report
         from ..report.pdf import write_pdf_report
 
-        write_html_report(out / "report.html", doc, out)
-        write_pdf_report(out / "report.pdf", doc, out)
+        data = report_data(doc, docs, out)
+        write_html_report(out / "report.html", data)
+        write_pdf_report(out / "report.pdf", data)
     return StudyRun(out, doc, 0, 0, failed)

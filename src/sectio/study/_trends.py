@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import DegenerateDataWarning, OptionError
-from ..stereology._fieldstats import t_critical
+from ..stereology import t_critical
 
 __all__ = ["LineFit", "fit_line", "CoarseningFit", "fit_lsw", "GrainGrowthFit",
            "fit_parabolic_growth"]

@@ -72,61 +72,26 @@ def _replace_strings(obj, old: str, new: str):
     return obj
 
 
-def intercept_lengths_px(labels, *, spacing_px: int) -> list[float]:
-    """Lengths (pixels) of the grain chords cut by horizontal and vertical test lines.
-
-    Every ``spacing_px``-th row and column is a test line; along it a chord is a run of one
-    label between two label changes. Runs touching the field edge are incomplete and left
-    out, so the mean of these chords is a little below the mean lineal intercept of the
-    count (which credits the end pieces); the distribution is for the histogram only.
-    """
-    import numpy as np
-
-    out = []
-    lab = np.asarray(labels)
-    for arr in (lab[::spacing_px, :], lab[:, ::spacing_px].T):
-        for line in arr:
-            change = np.flatnonzero(line[1:] != line[:-1]) + 1
-            if change.size >= 2:
-                out.append(np.diff(change))
-    return [float(v) for v in np.concatenate(out)] if out else []
-
-
 def _measure(task: FieldTask, path: str) -> tuple[dict, bytes]:
     from ..micrograph import load
     from ..report import jsonable
+    from ..specimen import measure_field
 
     cal = task.calibration
     mg = load(path, pixel_size=cal.get("pixel_size"), crop_bottom=cal.get("crop_bottom", 0),
               scale_bar=cal.get("scale_bar"), objective=cal.get("objective"),
               calibration_file=cal.get("calibration_file"),
               keep_strip=bool(cal.get("keep_strip", False)))
+    options = task.options
     if task.kind == "grains":
-        from ..grains import make_options, measure_grains
-        from ..report.grains import overlay_png_bytes
+        from ..grains import make_options
 
         opts = dict(task.options)
         if "angles_deg" in opts:
             opts["angles_deg"] = tuple(opts["angles_deg"])
-        gopts = make_options(**opts)
-        field = measure_grains(mg, gopts)
-        s = field.pixel_size_um
-        record = {
-            "result": field.to_dict(),
-            "measure_options": gopts.to_dict(),
-            "intercepts_um": [v * s for v in intercept_lengths_px(
-                field.labels, spacing_px=gopts.line_spacing_px)],
-            "rows": field.grain_table(),
-        }
-        return jsonable(record), overlay_png_bytes(field)
-    from ..particles import measure_particles
-    from ..report import png_bytes
-
-    field = measure_particles(mg, **task.options)
-    d = field.to_dict(particles=True)
-    rows = d.pop("particles")
-    record = {"result": d, "measure_options": field.options, "rows": rows}
-    return jsonable(record), png_bytes(field.overlay())
+        options = make_options(**opts)
+    measured = measure_field(task.kind, mg, options, chords=True)
+    return jsonable(measured.record.payload()), measured.overlay_png()
 
 
 def run_field(task: FieldTask) -> tuple[dict, bytes | None]:
