@@ -165,14 +165,14 @@ class MeasuredField:
     image_sha256: str | None = None  # of the image file, when an edit file was looked for
 
     def overlay_png(self) -> bytes:
-        """The field's overlay picture as PNG bytes."""
+        """The field's overlay picture as PNG bytes, with micron marker and legend."""
         if self.kind == "grains":
             from .report.grains import overlay_png_bytes
 
             return overlay_png_bytes(self.field)
-        from .report import png_bytes
+        from .report.particles import overlay_png_bytes
 
-        return png_bytes(self.field.overlay())
+        return overlay_png_bytes(self.field)
 
 
 def measure_field(kind: str, micrograph, options, *, chords: bool = False,

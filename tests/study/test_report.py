@@ -10,7 +10,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from sectio.study import load_study, run_study
+from sectio.study import load_study, run_study, with_report_fields
 
 CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium"
                                         if Path("/usr/bin/chromium").exists() else None)
@@ -30,10 +30,29 @@ def report_run(image_dir, tmp_path_factory):
                          '\n[specimens.P-64h]\nimages = ["p004_f1.tif"]\nmeasure = '
                          '["particles"]\nmaterial = "al-age-hardening"\nseries = "ageing"\n'
                          'trial = { name = "ageing time", value = 64, unit = "h" }\n')
+    # Header fields from the study file's [report] table, one from the command-line path.
+    text = text.replace("bootstrap = 50\n", "bootstrap = 50\n\n" + REPORT_TABLE)
+    text = text.replace("[specimens.S-600]\n", "[specimens.S-600]\n" + S600_RECORD)
     (d / "study.toml").write_text(text, encoding="utf-8")
     out = d / "out"
-    run = run_study(load_study(d / "study.toml"), out, workers=1)
+    study = with_report_fields(load_study(d / "study.toml"), operator="T. Tester (test)")
+    run = run_study(study, out, workers=1)
     return run, out
+
+
+REPORT_TABLE = """[report]
+number = "QA-7781"
+date = "2026-11-30"
+laboratory = "Test laboratory (invented)"
+standards = ["ASTM E112-13", "ASTM E562-19"]
+approved_by = "R. Approver (invented)"
+etchant = "2 % nital"
+objective = "50× / 0.80"
+instrument = "light microscope"
+
+"""
+S600_RECORD = 'heat = "heat 4471 (invented)"\nmagnification = "500×"\n'
+
 
 
 def test_html_is_self_contained_and_carries_the_numbers(report_run):
@@ -58,13 +77,58 @@ def test_html_is_self_contained_and_carries_the_numbers(report_run):
     assert co is not None and f"K = {co['rate_nm3_per_unit']:.4g} nm³/h" in html
 
 
-def test_pdf_has_title_trend_and_specimen_pages(report_run):
+def test_pdf_pages_numbered_header_crops_signoff(report_run):
+    from pypdf import PdfReader
+
     run, out = report_run
     data = (out / "report.pdf").read_bytes()
     assert data.startswith(b"%PDF-")
-    n_pages = len(re.findall(rb"/Type\s*/Page[^s]", data))
-    # title page + one page per trend series + two pages per specimen
-    assert n_pages == 1 + len(run.study_doc["trends"]) + 2 * len(run.study_doc["specimens"])
+    pages = [p.extract_text() for p in PdfReader(out / "report.pdf").pages]
+    n = len(pages)
+    specs = run.study_doc["specimens"]
+    # title + trends + per specimen: numbers, 1:1 crops, distributions (+ constants when a
+    # strength estimate exists) + the sign-off page
+    n_strength = len([s for s in specs if s["strength"]])
+    assert n == 1 + len(run.study_doc["trends"]) + 3 * len(specs) + n_strength + 1
+    for i, text in enumerate(pages, start=1):
+        assert f"page {i} of {n}" in text
+        assert "QA-7781" in text
+    for value in ("2026-11-30", "Test laboratory", "ASTM E562-19", "T. Tester",
+                  "heat 4471", "2 % nital"):
+        assert value in pages[0].replace("\n", " ")
+    assert "overlays at 1:1" in " ".join(pages)
+    assert "Sign-off" in pages[-1] and "R. Approver" in pages[-1]
+    assert "constants used" in " ".join(pages)
+
+
+def test_html_header_signoff_links_and_permissions(report_run):
+    from PIL import Image
+
+    run, out = report_run
+    html = (out / "report.html").read_text(encoding="utf-8")
+    for value in ("QA-7781", "2026-11-30", "Test laboratory (invented)",
+                  "ASTM E112-13; ASTM E562-19", "T. Tester (test)", "heat 4471 (invented)",
+                  "500×", "50× / 0.80", "light microscope", "Approved by",
+                  "R. Approver (invented)", "Checked by"):
+        assert value in html, value
+    # Every field's full-resolution overlay is linked (relative) and is the stored PNG.
+    links = re.findall(r"<a class=full href='([^']+)'>", html)
+    n_fields = sum(len(s["fields"]) for s in run.study_doc["specimens"])
+    assert len(links) == n_fields
+    for link in links:
+        png = out / link
+        assert png.is_file() and not Path(link).is_absolute()
+        with Image.open(png) as im:
+            w, h = im.size
+        assert w >= 256 and h >= 256
+    assert html.count("at 1:1") == n_fields
+    # The constants behind each estimate, with their sources.
+    assert "Constants used" in html and "σ0 friction stress" in html
+    assert "Cordero" not in html or "table S1" in html
+    # All outputs are ordinary readable files (0644), the PDF included.
+    for f in out.rglob("*"):
+        if f.is_file():
+            assert f.stat().st_mode & 0o777 == 0o644, f
 
 
 def _render(html_path: Path, png: Path, profile: Path) -> subprocess.CompletedProcess:

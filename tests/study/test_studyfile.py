@@ -98,3 +98,25 @@ def test_missing_images_key_and_no_specimens(study_dir):
 def test_missing_study_file(tmp_path):
     with pytest.raises(StudyFileError, match=r"Cannot find the study file .*nope\.toml"):
         load_study(tmp_path / "nope.toml")
+
+
+def test_report_table_and_overrides(tmp_path):
+    from sectio.study import parse_study, with_report_fields
+
+    (tmp_path / "a.tif").write_bytes(b"")
+    text = ('[study]\ntitle = "t"\n[report]\nnumber = "R-1"\nstandards = "ASTM E112-13"\n'
+            'etchant = "nital"\n[specimens.A]\nimages = ["a.tif"]\netchant = "picral"\n'
+            '[specimens.B]\nimages = ["a.tif"]\n')
+    study = parse_study(text, tmp_path / "s.toml")
+    assert study.report["standards"] == ["ASTM E112-13"]
+    recs = {s.name: s.record for s in study.specimens}
+    assert recs == {"A": {"etchant": "picral"}, "B": {"etchant": "nital"}}
+    over = with_report_fields(study, number="R-2", etchant="Kalling's", operator=None)
+    assert over.report["number"] == "R-2" and "operator" not in over.report
+    # A specimen's own value wins; the default moves for the others.
+    assert {s.name: s.record["etchant"] for s in over.specimens} == {"A": "picral",
+                                                                      "B": "Kalling's"}
+    with pytest.raises(StudyFileError, match=r"line 6, key report.signed: unknown key"):
+        parse_study(text.replace('etchant = "nital"', 'signed = "x"'), tmp_path / "s.toml")
+    with pytest.raises(StudyFileError, match="list the standards as strings"):
+        parse_study(text.replace('"ASTM E112-13"', '[1]'), tmp_path / "s.toml")

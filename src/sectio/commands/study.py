@@ -23,9 +23,18 @@ from ._common import max_image_memory_option
 @click.option("--scheduler", default=None,
               help="Run the fields on a Dask cluster, tcp://HOST:PORT (needs sectio[dask]).")
 @click.option("--no-report", is_flag=True, help="Skip report.html and report.pdf.")
+@click.option("--report-number", help="Report number in the header (else [report] number).")
+@click.option("--operator", help="Who prepared the sections and ran the analysis.")
+@click.option("--date", "report_date", help="Date of the report, e.g. 2026-12-02.")
+@click.option("--laboratory", help="Laboratory name in the header.")
+@click.option("--standard", "standards", multiple=True,
+              help="A standard followed (repeat for several), e.g. --standard 'ASTM E112-13'.")
+@click.option("--checked-by", help="Name printed in the sign-off block as checker.")
+@click.option("--approved-by", help="Name printed in the sign-off block as approver.")
 @max_image_memory_option
 @click.pass_context
-def study_command(ctx, study_file, out_dir, workers, scheduler, no_report):
+def study_command(ctx, study_file, out_dir, workers, scheduler, no_report, report_number,
+                  operator, report_date, laboratory, standards, checked_by, approved_by):
     """Measure every field of every specimen named in STUDY_FILE and write a report.
 
     Writes per specimen grains.json / particles.json / strength.json, then study.json,
@@ -34,9 +43,12 @@ def study_command(ctx, study_file, out_dir, workers, scheduler, no_report):
 
     Example:  sectio study sample_images/demo_study.toml --out demo_out
     """
-    from ..study import load_study, run_study
+    from ..study import load_study, run_study, with_report_fields
 
-    study = load_study(study_file)
+    study = with_report_fields(
+        load_study(study_file), number=report_number, operator=operator, date=report_date,
+        laboratory=laboratory, standards=standards, checked_by=checked_by,
+        approved_by=approved_by)
     state = {"bar": None}
 
     def progress(done, total):

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import io
 from pathlib import Path
 
 import numpy as np
@@ -89,49 +88,20 @@ def grain_overlay(field, *, max_lines_per_direction: int = 12) -> np.ndarray:
     return rgb.astype(np.uint8)
 
 
-def _caption_strip(width: int, lines: list[str]) -> np.ndarray:
-    """A dark strip with the caption lines, the font shrunk until the longest line fits."""
-    from PIL import Image, ImageDraw, ImageFont
-
-    size = max(10, min(22, width // 55))
-    while True:
-        try:
-            font = ImageFont.load_default(size=size)
-        except TypeError:  # Pillow < 10.1: one bitmap size only
-            font = ImageFont.load_default()
-            break
-        longest = max(font.getlength(t) for t in lines)
-        if longest <= width - 16 or size <= 9:
-            break
-        size -= 1
-    h = (size + 6) * len(lines) + 8
-    im = Image.new("RGB", (width, h), (24, 24, 24))
-    d = ImageDraw.Draw(im)
-    y = 4
-    for text in lines:
-        d.text((8, y), text, fill=(235, 235, 235), font=font)
-        y += size + 6
-    return np.asarray(im)
-
-
 def overlay_png_bytes(field) -> bytes:
-    """Overlay with a caption strip (numbers and colour key) as PNG bytes."""
-    from PIL import Image
+    """Overlay with micron marker and caption strip (numbers and colour key) as PNG bytes."""
+    from ._overlay import overlay_png
 
     rgb = field.overlay()
     d = field.to_dict()
     caption = [
-        f"{Path(d['image']).name}   pixel {d['pixel_size_um']:.4g} um ({d['pixel_size_source']})",
-        f"mean lineal intercept {d['mean_intercept_um']:.3g} um ({d['intercept_count']} crossings)",
+        f"{Path(d['image']).name}   pixel {d['pixel_size_um']:.4g} µm ({d['pixel_size_source']})",
+        f"mean lineal intercept {d['mean_intercept_um']:.3g} µm ({d['intercept_count']} crossings)",
         f"G(intercept) {d['astm_g_intercept']:.1f}   G(planimetric) "
         f"{d['astm_g_planimetric']:.1f}   {d['grain_count']} grains",
         "amber: boundaries  blue: test lines (subset)  magenta: crossings",
     ]
-    strip = _caption_strip(rgb.shape[1], caption)
-    out = np.vstack([rgb, strip])
-    buf = io.BytesIO()
-    Image.fromarray(out).save(buf, format="PNG", optimize=False, compress_level=1)
-    return buf.getvalue()
+    return overlay_png(rgb, d["pixel_size_um"], caption)
 
 
 def write_overlay(field, path) -> Path:

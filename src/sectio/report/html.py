@@ -37,7 +37,7 @@ HOW_TO_READ = [
     ("Particles",
      "The area fraction of particles equals their volume fraction (Delesse). Section sizes "
      "are what the plane of polish cuts; the mean sphere diameter is the Schwartz–Saltykov "
-     "unfolding of those sections into spheres, with a bootstrap interval."),
+     "unfolding of those sections into spheres, with an interval from the spread between fields."),
     ("Strength",
      "Each contribution (friction stress, Hall–Petch, Orowan, ...) is drawn many times from "
      "the uncertainty of its inputs (Monte Carlo); the bar shows the median and 95 % "
@@ -75,7 +75,7 @@ class SpecimenData:
     grains: dict | None = None
     particles: dict | None = None
     strength: dict | None = None
-    overlays: list = field(default_factory=list)  # (caption, png path)
+    overlays: list = field(default_factory=list)  # (caption, png path, link, pixel size µm)
     intercepts_um: list = field(default_factory=list)
     pixel_size_um: float | None = None  # of the grain fields (bins of the chord histogram)
     particle_ecd_um: list = field(default_factory=list)
@@ -113,7 +113,8 @@ def report_data(study_doc: dict, documents: Mapping[str, Mapping],
         sd.pixel_size_um = px.pop() if len(px) == 1 else None
         for kind, doc in (("grains", sd.grains), ("particles", sd.particles)):
             for f in (doc or {}).get("fields", []):
-                sd.overlays.append((f"{kind}: {f['image']}", out / e["name"] / f["overlay_png"]))
+                sd.overlays.append((f"{kind}: {f['image']}", out / e["name"] / f["overlay_png"],
+                                    f"{e['name']}/{f['overlay_png']}", f.get("pixel_size_um")))
         if grains is not None:
             sd.intercepts_um = grains.intercepts_um()
         if particles is not None:
@@ -140,6 +141,12 @@ th{background:#eef1f4;font-weight:600}td.n{text-align:right;font-variant-numeric
 figure{margin:0;flex:0 1 auto}figure img{max-width:100%;border:1px solid #dde1e6}
 figcaption{font-size:12px;color:#5a6472}
 .ov img{width:360px}.fig img{width:540px}.wide img{width:1000px}
+.crop img{max-width:none;image-rendering:pixelated}
+table.hdr td:first-child{font-weight:600;width:190px}
+.signoff{display:flex;gap:28px;margin:18px 0 8px}.signoff div{flex:1;border:1px solid #c9cfd6;
+padding:10px 12px;min-height:110px}.signoff .line{border-bottom:1px solid #1d2430;
+height:34px;margin:6px 0 2px}.signoff small{color:#5a6472}
+@media print{body{background:#fff}main{max-width:none;padding:0}}
 .spec{border-top:1px solid #dde1e6;margin-top:30px}
 .big{font-size:20px;font-weight:600}.muted{color:#5a6472}
 ul{margin:4px 0 10px}dl.read dt{font-weight:600;margin-top:8px}dl.read dd{margin:0 0 0 16px}
@@ -265,6 +272,14 @@ def _strength_html(st: dict) -> str:
         if st.get(key):
             out.append(f"<div class=note><b>{label}:</b><ul>"
                        + "".join(f"<li>{_e(a)}</li>" for a in st[key]) + "</ul></div>")
+    from ._document import constants_rows
+
+    rows = constants_rows(st)
+    if rows:
+        out.append("<p><b>Constants used</b></p><table><tr><th>constant</th><th>value</th>"
+                   "<th>uncertainty</th><th>source</th></tr>" + "".join(
+                       "<tr>" + "".join(f"<td>{_e(c)}</td>" for c in r) + "</tr>"
+                       for r in rows) + "</table>")
     out.append(f"<div class=caution><b>Caution.</b> {_e(st['caution'])}</div>")
     return "".join(out)
 
@@ -277,14 +292,28 @@ def _specimen_html(sd: SpecimenData) -> str:
            f"<p class=sub>{_e(e.get('description') or '')} · trial: {_e(_trial(e))} · "
            f"series: {_e(e.get('series') or '–')} · material: {_e(e.get('material') or '–')}"
            "</p>"]
+    from urllib.parse import quote
+
+    from ._document import overlay_crop_png
+
     ovs = []
-    for caption, path in sd.overlays:
+    for caption, path, link, px in sd.overlays:
         data = overlay_jpeg(path)
         if data:
-            ovs.append(f"<figure class=ov>{_img(data, 'image/jpeg', caption)}"
-                       f"<figcaption>{_e(caption)}</figcaption></figure>")
+            href = quote(link)
+            crop = overlay_crop_png(path, px)
+            ovs.append(
+                "<div class=grid>"
+                f"<figure class=ov><a href='{_e(href)}'>{_img(data, 'image/jpeg', caption)}</a>"
+                f"<figcaption>{_e(caption)} · whole field, reduced · "
+                f"<a class=full href='{_e(href)}'>full-resolution overlay (PNG)</a>"
+                "</figcaption></figure>"
+                + (f"<figure class=crop>{_img(crop, 'image/png', caption + ' 1:1 crop')}"
+                   "<figcaption>centre of the field at 1:1 (one image pixel per screen "
+                   "pixel)</figcaption></figure>" if crop else "")
+                + "</div>")
     if ovs:
-        out.append("<div class=grid>" + "".join(ovs) + "</div>")
+        out.append("<h3>Overlays</h3>" + "".join(ovs))
     if sd.grains:
         s = sd.grains["summary"]
         if s.get("n_fields"):
@@ -346,6 +375,29 @@ def _specimen_html(sd: SpecimenData) -> str:
     return "".join(out)
 
 
+def _header_html(doc: dict) -> str:
+    from ._document import RECORD_FIELDS, header_rows, record_rows
+
+    head = "".join(f"<tr><td>{_e(k)}</td><td>{_e(v)}</td></tr>" for k, v in header_rows(doc))
+    rec = ("<table class=rec><tr><th>specimen</th><th>material class</th>"
+           + "".join(f"<th>{_e(label)}</th>" for _, label in RECORD_FIELDS) + "</tr>"
+           + "".join("<tr>" + "".join(f"<td>{_e(c)}</td>" for c in r) + "</tr>"
+                     for r in record_rows(doc)) + "</table>")
+    return f"<table class=hdr>{head}</table>{rec}"
+
+
+def _signoff_html(doc: dict) -> str:
+    from ._document import BLANK, SIGNOFF_ROLES
+
+    rep = doc.get("report") or {}
+    boxes = "".join(
+        f"<div><b>{_e(role)}</b><br>{_e(rep.get(key) or BLANK)}<div class=line></div>"
+        "<small>signature</small><div class=line></div><small>date</small></div>"
+        for key, role in SIGNOFF_ROLES)
+    return ("<h2>Sign-off</h2><p class=muted>Results checked against the overlays and the "
+            f"caution above.</p><div class=signoff>{boxes}</div>")
+
+
 def render_html(data: ReportData) -> str:
     """The whole report as one HTML string."""
     doc = data.study
@@ -358,6 +410,7 @@ def render_html(data: ReportData) -> str:
         f"<p class=sub>{_e(doc.get('description') or '')} Study file {_e(doc['study_file'])}"
         f", sectio {_e(doc['sectio_version'])}, Monte Carlo seed {doc['settings']['seed']} "
         f"with {doc['settings']['draws']} draws.</p>",
+        _header_html(doc),
         f"<div class=caution><b>Caution.</b> {_e(GENERAL_CAUTION)}</div>",
     ]
     if failed:
@@ -368,6 +421,7 @@ def render_html(data: ReportData) -> str:
         parts.append("<h2>Trends</h2>")
         parts += [_trend_html(t) for t in doc["trends"]]
     parts += [_specimen_html(sd) for sd in data.specimens]
+    parts.append(_signoff_html(doc))
     parts.append("<h2>How to read this report</h2><dl class=read>" + "".join(
         f"<dt>{_e(k)}</dt><dd>{_e(v)}</dd>" for k, v in HOW_TO_READ) + "</dl>")
     parts.append("<footer>Made by sectio from study.json and the per-specimen JSON files "

@@ -1,5 +1,6 @@
-"""The size-distribution figure of a particle measurement (the overlay is
-:meth:`sectio.particles.ParticleField.overlay`).
+"""Pictures of a particle measurement: the overlay PNG (the picture of
+:meth:`sectio.particles.ParticleField.overlay` with micron marker and legend) and the
+size-distribution figure.
 
 Written atomically as PNG; matplotlib (Agg) is imported only when it is drawn. It is drawn
 from the pooled size distribution the summary was computed from, never recomputed.
@@ -14,7 +15,24 @@ import numpy as np
 
 from ._io import atomic_write_bytes
 
-__all__ = ["write_size_distribution_png"]
+__all__ = ["overlay_png_bytes", "write_size_distribution_png"]
+
+
+def overlay_png_bytes(field) -> bytes:
+    """Overlay of one :class:`sectio.particles.ParticleField` with micron marker and legend."""
+    from pathlib import Path
+
+    from ._overlay import overlay_png
+
+    d = field.to_dict()
+    af = d["area_fraction"]
+    caption = [
+        f"{Path(str(d['image'])).name}   pixel {d['pixel_size_um']:.4g} µm",
+        f"area fraction {100 * af:.2f} %   {d['particles_counted']} whole particles, "
+        f"{d['particles_cut_by_edge']} cut by the edge, {d['particles_split']} split",
+        "cyan: counted particles  yellow: cut by the field edge  pink: split lines",
+    ]
+    return overlay_png(field.overlay(), d["pixel_size_um"], caption)
 
 
 def write_size_distribution_png(path: str | os.PathLike, sizes, *, area_um2: float,

@@ -9,12 +9,12 @@ from __future__ import annotations
 
 import io
 import os
-import tempfile
 import textwrap
 from pathlib import Path
 
 import numpy as np
 
+from ._io import atomic_write_bytes
 from .figures import (
     INK,
     intercept_histogram,
@@ -64,6 +64,7 @@ def _title_page(data: ReportData):
     y = _text(fig, 0.05, y - 0.01, f"{doc.get('description') or ''} Study file "
               f"{doc['study_file']}, sectio {doc['sectio_version']}, Monte Carlo seed "
               f"{doc['settings']['seed']}, {doc['settings']['draws']} draws.", size=9)
+    y = _header_block(fig, doc, y - 0.01)
     y = _text(fig, 0.05, y - 0.015, "CAUTION. " + GENERAL_CAUTION, size=9, weight="bold",
               color="#9b2c2c")
     head = (f"{'specimen':<14}{'trial':<30}{'G':>6}{'G 95% CI':>14}{'l_bar um':>10}"
@@ -92,6 +93,83 @@ def _title_page(data: ReportData):
     return fig
 
 
+def _header_block(fig, doc: dict, y: float) -> float:
+    """Report header (two columns of label: value) and the specimen record table."""
+    from ._document import RECORD_FIELDS, header_rows, record_rows
+
+    rows = header_rows(doc)
+    half = (len(rows) + 1) // 2
+    y0 = y
+    for col, part in enumerate((rows[:half], rows[half:])):
+        yy = y0
+        for label, value in part:
+            fig.text(0.05 + col * 0.45, yy, f"{label}:", fontsize=8.5, weight="bold",
+                     va="top", color=INK)
+            yy = _text(fig, 0.19 + col * 0.45, yy, value, size=8.5, width=58)
+        y = min(y, yy)
+    widths = (14, 20, 24, 18, 16, 12, 26)
+    head = ["specimen", "material class"] + [label for _, label in RECORD_FIELDS]
+    y -= 0.012
+    for r in [head] + record_rows(doc):
+        line = "".join(str(c)[: w - 1].ljust(w) for c, w in zip(r, widths, strict=False))
+        fig.text(0.05, y, line, fontsize=7.5, family="DejaVu Sans Mono", va="top", color=INK)
+        y -= 0.02
+    return y
+
+
+def _crop_pages(sd) -> list:
+    """Pages of 1:1 crops (figimage: one image pixel per pixel at 100 dpi), six a page."""
+    from PIL import Image
+
+    from ._document import overlay_crop_png
+
+    crops = []
+    for caption, path, _link, px in sd.overlays:
+        data = overlay_crop_png(path, px, size=300)
+        if data:
+            crops.append((caption, np.asarray(Image.open(io.BytesIO(data)).convert("RGB"))))
+    pages = []
+    for start in range(0, len(crops), 6):
+        fig = _page()
+        _text(fig, 0.04, 0.96, f"{sd.entry['name']}: overlays at 1:1 (centre of each field; "
+              "the whole fields are in the specimen folder at full resolution)", size=11,
+              weight="bold")
+        for i, (caption, arr) in enumerate(crops[start:start + 6]):
+            row, col = divmod(i, 3)
+            xo, yo = 60 + col * 370, 460 - row * 370
+            fig.figimage(arr, xo=xo, yo=yo, origin="upper")
+            fig.text(xo / 1169, (yo - 4) / 827, caption[:55], fontsize=7, va="top",
+                     color="#5a6472")
+        pages.append(fig)
+    return pages
+
+
+def _signoff_page(doc: dict):
+    from matplotlib.lines import Line2D
+    from matplotlib.patches import Rectangle
+
+    from ._document import BLANK, SIGNOFF_ROLES
+
+    fig = _page()
+    rep = doc.get("report") or {}
+    y = _text(fig, 0.05, 0.95, "Sign-off", size=15, weight="bold")
+    _text(fig, 0.05, y, "Results checked against the overlays and the caution of this "
+          "report.", size=9)
+    for i, (key, role) in enumerate(SIGNOFF_ROLES):
+        x = 0.05 + i * 0.31
+        fig.patches.append(Rectangle((x, 0.52), 0.28, 0.30, transform=fig.transFigure,
+                                     fill=False, ec="#8a939e", lw=0.8))
+        fig.text(x + 0.01, 0.80, role, fontsize=10, weight="bold", va="top", color=INK)
+        fig.text(x + 0.01, 0.76, rep.get(key) or BLANK, fontsize=9, va="top", color=INK)
+        for yy, label in ((0.66, "signature"), (0.57, "date")):
+            fig.add_artist(Line2D([x + 0.01, x + 0.27], [yy, yy], transform=fig.transFigure,
+                                  color=INK, lw=0.8))
+            fig.text(x + 0.01, yy - 0.008, label, fontsize=7, va="top", color="#5a6472")
+    _text(fig, 0.05, 0.45, "CAUTION. " + GENERAL_CAUTION, size=9, weight="bold",
+          color="#9b2c2c")
+    return fig
+
+
 def _specimen_pages(sd):
     e = sd.entry
     pages = []
@@ -101,7 +179,7 @@ def _specimen_pages(sd):
               f"{e.get('series') or '–'}; material: {e.get('material') or '–'}", size=9)
     from .html import overlay_jpeg
 
-    ovs = [(c, overlay_jpeg(p, max_px=600)) for c, p in sd.overlays]
+    ovs = [(c, overlay_jpeg(p, max_px=600)) for c, p, *_ in sd.overlays]
     ovs = [(c, d) for c, d in ovs if d]
     n = min(len(ovs), 3)
     for i, (cap, data) in enumerate(ovs[:n]):
@@ -161,51 +239,70 @@ def _specimen_pages(sd):
             y = _text(fig, 0.68, y - 0.005, "Flag: " + fl, size=6.5, width=68)
         _text(fig, 0.04, 0.17, "CAUTION. " + st["caution"], size=8.5, weight="bold",
               color="#9b2c2c", width=140)
+        pages.append(fig)
+        fig = _constants_page(e["name"], st)
     elif e.get("strength_note"):
         _text(fig, 0.04, 0.50, "Strength: " + e["strength_note"], size=9)
-    pages.append(fig)
-    return pages
+    if fig is not None:
+        pages.append(fig)
+    return pages[:1] + _crop_pages(sd) + pages[1:]
+
+
+def _constants_page(name: str, st: dict):
+    from ._document import constants_rows
+
+    rows = constants_rows(st)
+    if not rows:
+        return None
+    fig = _page()
+    y = _text(fig, 0.04, 0.96, f"{name}: constants used in the strength estimate", size=13,
+              weight="bold")
+    y -= 0.01
+    for label, value, unc, source in rows:
+        fig.text(0.04, y, label, fontsize=8, weight="bold", va="top", color=INK)
+        fig.text(0.25, y, value, fontsize=8, va="top", color=INK)
+        fig.text(0.37, y, unc, fontsize=8, va="top", color=INK)
+        y = min(y - 0.03, _text(fig, 0.52, y, source, size=7, width=90) - 0.008)
+    return fig
 
 
 def write_pdf_report(path: str | os.PathLike, data: ReportData) -> Path:
-    """Write the PDF report (see :func:`sectio.report.html.report_data`) atomically."""
+    """Write the PDF report (see :func:`sectio.report.html.report_data`) atomically (0644),
+    every page numbered "page N of M"."""
     from matplotlib.backends.backend_pdf import PdfPages
 
     study_doc = data.study
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    os.close(fd)
-    try:
-        with PdfPages(tmp, metadata={"Title": study_doc["title"], "Creator": "sectio",
-                                     "CreationDate": None}) as pdf:
-            pdf.savefig(_title_page(data))
-            for t in study_doc.get("trends", []):
-                fig = _page()
-                _text(fig, 0.04, 0.96, f"Trend: series {t['series']}", size=13, weight="bold")
-                _image(fig, (0.03, 0.30, 0.94, 0.60), png_bytes(trend_figure(t), dpi=150))
-                y = 0.27
-                for key, name, unit in (("coarsening", "LSW coarsening K", "nm³"),
-                                        ("grain_growth", "parabolic growth k", "µm²")):
-                    fit = t.get(key)
-                    if fit:
-                        rate = fit["rate_nm3_per_unit" if key == "coarsening"
-                                   else "rate_um2_per_unit"]
-                        ci = fit["rate_ci95_nm3_per_unit" if key == "coarsening"
-                                 else "rate_ci95_um2_per_unit"]
-                        y = _text(fig, 0.05, y, f"{name} = {fmt(rate, '.4g')} {unit}/"
-                                  f"{fit['time_unit']}, 95 % CI {fmt_ci(ci, '.3g')} "
-                                  f"({fit['law']}; {fit['fit']['method'].upper()}, "
-                                  f"n = {fit['fit']['n']})", size=9)
-                for n in t.get("notes", []):
-                    y = _text(fig, 0.05, y, n, size=8)
-                pdf.savefig(fig)
-            for sd in data.specimens:
-                for fig in _specimen_pages(sd):
-                    pdf.savefig(fig)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-    return path
+    pages = [_title_page(data)]
+    for t in study_doc.get("trends", []):
+        fig = _page()
+        _text(fig, 0.04, 0.96, f"Trend: series {t['series']}", size=13, weight="bold")
+        _image(fig, (0.03, 0.30, 0.94, 0.60), png_bytes(trend_figure(t), dpi=150))
+        y = 0.27
+        for key, name, unit in (("coarsening", "LSW coarsening K", "nm³"),
+                                ("grain_growth", "parabolic growth k", "µm²")):
+            fit = t.get(key)
+            if fit:
+                rate = fit["rate_nm3_per_unit" if key == "coarsening"
+                           else "rate_um2_per_unit"]
+                ci = fit["rate_ci95_nm3_per_unit" if key == "coarsening"
+                         else "rate_ci95_um2_per_unit"]
+                y = _text(fig, 0.05, y, f"{name} = {fmt(rate, '.4g')} {unit}/"
+                          f"{fit['time_unit']}, 95 % CI {fmt_ci(ci, '.3g')} "
+                          f"({fit['law']}; {fit['fit']['method'].upper()}, "
+                          f"n = {fit['fit']['n']})", size=9)
+        for n in t.get("notes", []):
+            y = _text(fig, 0.05, y, n, size=8)
+        pages.append(fig)
+    for sd in data.specimens:
+        pages.extend(_specimen_pages(sd))
+    pages.append(_signoff_page(study_doc))
+    number = (study_doc.get("report") or {}).get("number")
+    label = f"Report {number} · " if number else ""
+    buf = io.BytesIO()
+    with PdfPages(buf, metadata={"Title": study_doc["title"], "Creator": "sectio",
+                                 "CreationDate": None}) as pdf:
+        for i, fig in enumerate(pages, start=1):
+            fig.text(0.5, 0.012, f"{label}{study_doc['title'][:80]} · page {i} of "
+                     f"{len(pages)}", ha="center", va="bottom", fontsize=7, color="#5a6472")
+            pdf.savefig(fig)
+    return atomic_write_bytes(path, buf.getvalue())

@@ -14,7 +14,16 @@ write), :mod:`._trends` (LSW coarsening and parabolic grain-growth fits).
 from __future__ import annotations
 
 from ._runner import StudyRun, plan_fields, run_study
-from ._studyfile import Specimen, Study, TrialVariable, key_lines, load_study, parse_study
+from ._studyfile import (
+    REPORT_KEYS,
+    Specimen,
+    Study,
+    TrialVariable,
+    key_lines,
+    load_study,
+    parse_study,
+    with_report_fields,
+)
 from ._trends import (
     CoarseningFit,
     GrainGrowthFit,
@@ -26,6 +35,7 @@ from ._trends import (
 from ._work import FieldTask, field_key, run_field
 
 __all__ = [
+    "REPORT_KEYS", "with_report_fields",
     "CoarseningFit", "FieldTask", "GrainGrowthFit", "LineFit", "Specimen", "Study", "StudyRun",
     "TrialVariable", "field_key", "fit_line", "fit_lsw", "fit_parabolic_growth",
     "key_lines", "load_study", "parse_study", "plan_fields",

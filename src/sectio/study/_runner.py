@@ -23,7 +23,7 @@ from .. import __version__
 from ..report import atomic_write_bytes, to_json_text, write_json
 from ..specimen import write_result
 from ._assemble import STUDY_SCHEMA, specimen_documents, trend_points
-from ._studyfile import Study
+from ._studyfile import REPORT_KEYS, Study
 from ._work import RECORD_SCHEMA, FieldTask, field_key
 
 __all__ = ["StudyRun", "plan_fields", "run_study"]
@@ -252,6 +252,7 @@ def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = Tru
         "description": study.description,
         "study_file": study.path.name,
         "sectio_version": __version__,
+        "report": {k: study.report.get(k) for k in REPORT_KEYS},
         "settings": {"seed": study.seed, "draws": study.draws, "bootstrap": study.bootstrap,
                      "materials_file": (study.materials_file.name
                                         if study.materials_file else None)},

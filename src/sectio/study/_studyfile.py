@@ -18,6 +18,12 @@ A minimal study file::
     calibration = { pixel_size = "0.5um" }
     # or: calibration = { objective = "50x" }   (from 'sectio calibrate'; the file is
     #     [study] calibration_file, else $SECTIO_CALIBRATIONS, else the per-user file)
+
+The report header and sign-off come from an optional ``[report]`` table (keys in
+:data:`REPORT_KEYS`: report ``number``, ``date``, ``operator``, ``laboratory``,
+``customer``, ``standards``, ``checked_by``, ``approved_by`` and the defaults ``instrument``,
+``etchant``, ``objective``, ``magnification`` for every specimen); a specimen may set
+``heat``, ``etchant``, ``objective``, ``magnification`` and ``instrument`` itself.
 """
 
 from __future__ import annotations
@@ -32,16 +38,26 @@ from pathlib import Path
 from .._checks import check_number
 from ..errors import InputError, StudyFileError
 
-__all__ = ["Specimen", "Study", "TrialVariable", "key_lines", "load_study", "parse_study"]
+__all__ = ["RECORD_KEYS", "REPORT_KEYS", "Specimen", "Study", "TrialVariable", "key_lines",
+           "load_study", "parse_study", "with_report_fields"]
 
 #: Time units a trial variable may carry, with their value in hours (for the trend fits).
 TIME_UNITS_H = {"s": 1 / 3600, "min": 1 / 60, "h": 1.0, "d": 24.0}
 
+#: Keys of the [report] table: what a laboratory puts in a report header and sign-off.
+REPORT_KEYS = {"number": str, "date": str, "operator": str, "laboratory": str,
+               "customer": str, "standards": (list, str), "checked_by": str,
+               "approved_by": str, "instrument": str, "etchant": str, "objective": str,
+               "magnification": (str, int, float)}
+#: Keys a specimen may set for its own record (they override the [report] defaults).
+RECORD_KEYS = ("heat", "etchant", "objective", "magnification", "instrument")
 _STUDY_KEYS = {"title": str, "description": str, "seed": int, "draws": int,
                "materials_file": str, "bootstrap": int, "calibration_file": str}
 _SPECIMEN_KEYS = {"description": str, "images": (list, str), "measure": (list, str),
                   "material": str, "series": str, "trial": dict, "calibration": dict,
-                  "grains": dict, "particles": dict, "strength": dict}
+                  "grains": dict, "particles": dict, "strength": dict, "heat": str,
+                  "etchant": str, "objective": str, "magnification": (str, int, float),
+                  "instrument": str}
 _TRIAL_KEYS = {"name": str, "value": (int, float), "unit": str}
 _CALIBRATION_KEYS = {"pixel_size": (str, int, float), "scale_bar": (str, int, float),
                      "crop_bottom": int, "objective": str, "calibration_file": str,
@@ -93,6 +109,7 @@ class Specimen:
     particle_options: dict  # keyword arguments of sectio.particles.measure_particles
     strength_options: dict  # keyword arguments of StrengthOptions
     description: str = ""
+    record: dict = field(default_factory=dict)  # heat, etchant, objective, ... (RECORD_KEYS)
 
     def to_dict(self) -> dict:
         return {
@@ -104,6 +121,7 @@ class Specimen:
             "measure": list(self.measure),
             "images": list(self.images),
             "calibration": dict(self.calibration),
+            "record": dict(self.record),
         }
 
 
@@ -119,6 +137,7 @@ class Study:
     bootstrap: int
     materials_file: Path | None
     specimens: tuple[Specimen, ...] = field(default_factory=tuple)
+    report: dict = field(default_factory=dict)  # the [report] table (REPORT_KEYS)
 
     @property
     def folder(self) -> Path:
@@ -364,10 +383,16 @@ def parse_study(text: str, path: str | os.PathLike) -> Study:
         raise StudyFileError(f"{path.name}: not valid TOML ({exc}); fix the syntax there.") \
             from None
     rep = _Reporter(path, text)
-    unknown = sorted(set(doc) - {"study", "specimens"})
+    unknown = sorted(set(doc) - {"study", "specimens", "report"})
     if unknown:
-        raise rep.error((unknown[0],), "unknown table; a study file has [study] and "
-                                       "[specimens.NAME] tables.")
+        raise rep.error((unknown[0],), "unknown table; a study file has [study], [report] "
+                                       "and [specimens.NAME] tables.")
+    report = dict(_check_table(rep, ("report",), doc.get("report", {}), REPORT_KEYS))
+    if isinstance(report.get("standards"), str):
+        report["standards"] = [report["standards"]]
+    if not all(isinstance(x, str) for x in report.get("standards", [])):
+        raise rep.error(("report", "standards"), "list the standards as strings, e.g. "
+                                                 '["ASTM E112-13", "ASTM E1382"].')
     head = _check_table(rep, ("study",), doc.get("study", {}), _STUDY_KEYS)
     materials_file = None
     if head.get("materials_file"):
@@ -436,12 +461,14 @@ def parse_study(text: str, path: str | os.PathLike) -> Study:
             name=name, images=tuple(shown), image_paths=tuple(paths), measure=measure,
             material=material, series=series, trial=trial, calibration=cal,
             grain_options=g, particle_options=p, strength_options=s,
-            description=sd.get("description", "")))
+            description=sd.get("description", ""),
+            record={k: str(sd.get(k, report.get(k))) for k in RECORD_KEYS
+                    if sd.get(k, report.get(k)) is not None}))
     _check_series(rep, specimens)
     return Study(path=path, title=head.get("title", path.stem),
                  description=head.get("description", ""), seed=int(head.get("seed", 0)),
                  draws=int(head.get("draws", 20000)), bootstrap=int(head.get("bootstrap", 200)),
-                 materials_file=materials_file, specimens=tuple(specimens))
+                 materials_file=materials_file, specimens=tuple(specimens), report=report)
 
 
 def _check_series(rep: _Reporter, specimens: list[Specimen]) -> None:
@@ -469,3 +496,30 @@ def load_study(path: str | os.PathLike) -> Study:
         raise StudyFileError(f"Cannot read the study file {path} ({exc}); save it as UTF-8 "
                              "text.") from None
     return parse_study(text, p)
+
+
+def with_report_fields(study: Study, **fields) -> Study:
+    """The study with [report] keys set from elsewhere (e.g. command-line options).
+
+    ``fields`` are REPORT_KEYS; None leaves the file's value. Specimen records take the
+    new defaults where the specimen sets none of its own.
+    """
+    from dataclasses import replace
+
+    given = {k: v for k, v in fields.items() if v not in (None, (), [])}
+    unknown = sorted(set(given) - set(REPORT_KEYS))
+    if unknown:
+        raise StudyFileError(f"Unknown report field(s) {unknown}; known: {sorted(REPORT_KEYS)}.")
+    if isinstance(given.get("standards"), str):
+        given["standards"] = [given["standards"]]
+    if "standards" in given:
+        given["standards"] = list(given["standards"])
+    report = {**study.report, **given}
+    specs = []
+    for spec in study.specimens:
+        record = dict(spec.record)
+        for k in RECORD_KEYS:
+            if k in given and (k not in record or record[k] == str(study.report.get(k))):
+                record[k] = str(given[k])
+        specs.append(replace(spec, record=record))
+    return replace(study, report=report, specimens=tuple(specs))
