@@ -87,6 +87,11 @@ class ParticleField:
         whole = ~self.table.edge
         return self.table.ecd_um[whole], self.table.weight[whole]
 
+    @property
+    def mean_sphere_diameter_um(self) -> float | None:
+        """Mean sphere diameter of this field's own Saltykov unfolding."""
+        return None if self.unfolding is None else self.unfolding.mean_sphere_diameter_um
+
     def to_dict(self, *, particles: bool = False) -> dict:
         u = self.unfolding
         d = {

@@ -102,3 +102,18 @@ def test_fit_line_errors():
         fit_line([1.0, 1.0, 1.0], [1.0, 2.0, 3.0])
     with pytest.raises(OptionError, match="same length"):
         fit_line([1.0, 2.0], [1.0, 2.0, 3.0])
+
+
+def test_three_point_fit_is_flagged_for_its_one_residual_dof():
+    # Three points, two parameters: one residual degree of freedom; R² near 1 means
+    # nothing, so the fit carries the flag (and the interval t(0.975, 1) = 12.71).
+    from scipy import stats
+
+    from sectio.study._trends import FEW_DOF_FLAG
+
+    f = fit_line([4.0, 16.0, 64.0], [1.0e5, 2.1e5, 7.9e5])
+    assert f.dof == 1 and FEW_DOF_FLAG in f.flags
+    half = (f.slope_ci95[1] - f.slope_ci95[0]) / 2
+    assert half == pytest.approx(stats.t.ppf(0.975, 1) * f.slope_se)
+    assert fit_line([1.0, 2.0, 3.0, 4.0], [1.0, 2.2, 2.9, 4.1]).flags == ()
+    assert f.to_dict()["flags"] == [FEW_DOF_FLAG]

@@ -46,8 +46,8 @@ HOW_TO_READ = [
     ("Trends",
      "Error bars are 95 % intervals. For a time series the report fits the LSW coarsening law "
      "r³ − r0³ = K·t to the particle radii and the parabolic law d² − d0² = k·t to the grain "
-     "size; K and k carry 95 % intervals from Student t with n − 2 degrees of freedom, which "
-     "are wide with three specimens."),
+     "size; K and k carry 95 % intervals from Student t with n − 2 residual degrees of "
+     "freedom; a fit with fewer than 2 (three specimens) is flagged: its R² says nothing."),
     ("Overlays",
      "Check them before trusting a number: grain overlays draw the detected boundaries in "
      "amber, a subset of test lines in blue and crossings in magenta; particle overlays "
@@ -217,6 +217,21 @@ def _summary_table(data: ReportData) -> str:
             + "".join(rows) + "</table>")
 
 
+def fit_text(fit: dict) -> str:
+    """Method, n, residual degrees of freedom and R² of a trend fit, with its flag."""
+    dof = fit.get("dof")
+    base = f"{fit['method'].upper()}, n = {fit['n']}, {dof} residual dof"
+    if "fewer_than_2_residual_dof" in (fit.get("flags") or []):
+        return (base + " — FLAG: fewer than 2 residual degrees of freedom; the points nearly "
+                "fix the line, so R² means nothing and the interval rests on t(0.975, "
+                f"{dof})")
+    return base + f", R² = {fmt(fit['r_squared'], '.3f')}"
+
+
+def _fit_text(fit: dict) -> str:
+    return _e(fit_text(fit))
+
+
 def _trend_html(trend: dict) -> str:
     from .figures import trend_figure
 
@@ -232,8 +247,7 @@ def _trend_html(trend: dict) -> str:
             f"<td class=n>K = {fmt(co['rate_nm3_per_unit'], '.4g')} nm³/{_e(u)}</td>"
             f"<td class=n>{fmt_ci(co['rate_ci95_nm3_per_unit'], '.3g', f'nm³/{u}')}</td>"
             f"<td class=n>r0 = {fmt(co['initial_radius_nm'], '.3g', 'nm')}</td>"
-            f"<td>{co['fit']['method'].upper()}, n = {co['fit']['n']}, "
-            f"R² = {fmt(co['fit']['r_squared'], '.3f')}</td></tr>")
+            f"<td>{_fit_text(co['fit'])}</td></tr>")
     gg = trend.get("grain_growth")
     if gg:
         u = gg["time_unit"]
@@ -242,8 +256,7 @@ def _trend_html(trend: dict) -> str:
             f"<td class=n>k = {fmt(gg['rate_um2_per_unit'], '.4g')} µm²/{_e(u)}</td>"
             f"<td class=n>{fmt_ci(gg['rate_ci95_um2_per_unit'], '.3g', f'µm²/{u}')}</td>"
             f"<td class=n>d0 = {fmt(gg['initial_size_um'], '.3g', 'µm')}</td>"
-            f"<td>{gg['fit']['method'].upper()}, n = {gg['fit']['n']}, "
-            f"R² = {fmt(gg['fit']['r_squared'], '.3f')}</td></tr>")
+            f"<td>{_fit_text(gg['fit'])}</td></tr>")
     if fits:
         parts.append("<table><tr><th>law</th><th>rate</th><th>95 % CI</th><th>start</th>"
                      "<th>fit</th></tr>" + "".join(fits) + "</table>")
@@ -353,7 +366,7 @@ def _specimen_html(sd: SpecimenData) -> str:
                 f"<tr><td>mean sphere diameter (Saltykov)</td>"
                 f"<td class=n>{fmt(s.get('mean_sphere_diameter_um'), '.3g', 'µm')}</td>"
                 f"<td>95 % CI {fmt_ci(s.get('mean_sphere_diameter_ci95_um'), '.3g', 'µm')}"
-                f"</td></tr>"
+                f" ({_e(s.get('mean_sphere_diameter_basis') or '')})</td></tr>"
                 f"<tr><td>particles per µm²</td>"
                 f"<td class=n>{fmt(s.get('particles_per_um2'), '.4g')}</td>"
                 f"<td>{s.get('particles_counted')} whole particles in {s['n_fields']} "

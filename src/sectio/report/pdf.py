@@ -23,7 +23,15 @@ from .figures import (
     strength_figure,
     trend_figure,
 )
-from .html import GENERAL_CAUTION, HOW_TO_READ, ReportData, _trial, fmt, fmt_ci
+from .html import (
+    GENERAL_CAUTION,
+    HOW_TO_READ,
+    ReportData,
+    _trial,
+    fit_text,
+    fmt,
+    fmt_ci,
+)
 
 __all__ = ["write_pdf_report"]
 
@@ -288,8 +296,7 @@ def write_pdf_report(path: str | os.PathLike, data: ReportData) -> Path:
                          else "rate_ci95_um2_per_unit"]
                 y = _text(fig, 0.05, y, f"{name} = {fmt(rate, '.4g')} {unit}/"
                           f"{fit['time_unit']}, 95 % CI {fmt_ci(ci, '.3g')} "
-                          f"({fit['law']}; {fit['fit']['method'].upper()}, "
-                          f"n = {fit['fit']['n']})", size=9)
+                          f"({fit['law']}; {fit_text(fit['fit'])})", size=9)
         for n in t.get("notes", []):
             y = _text(fig, 0.05, y, n, size=8)
         pages.append(fig)

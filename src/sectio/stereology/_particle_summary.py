@@ -7,8 +7,12 @@ value and labelled ``"sub-regions of one field"`` — tiles of one field are not
 fields, so that interval is a lower bound on the field-to-field spread.
 
 The sphere-size estimate is pooled: the edge-weighted section diameters of all fields go
-into one Schwartz–Saltykov unfolding; its interval comes from a bootstrap over particles
-(resampled within each field), percentile method (Efron & Tibshirani 1993).
+into one Schwartz–Saltykov unfolding. Its interval, like every other quantity's, comes from
+the spread between fields: the fields' own unfoldings give s, and the interval is the
+pooled value ± t(0.975, n − 1)·s/√n (``mean_sphere_diameter_basis = "fields"``). A bootstrap
+over particles (resampled within each field, percentile method, Efron & Tibshirani 1993)
+only measures counting noise — it is kept as ``mean_sphere_diameter_bootstrap_ci95_um``
+and is the interval only for a single field, where it is labelled as a lower bound.
 """
 
 from __future__ import annotations
@@ -151,10 +155,28 @@ def summarize_particle_fields(
     rng = np.random.default_rng(seed)
     unf, se, ci, ecd, wts = _pooled_unfolding(results, options, sections, rng, bootstrap)
     if unf is not None:
-        out["mean_sphere_diameter_um"] = unf.mean_sphere_diameter_um
-        out["mean_sphere_diameter_se_um"] = se
-        out["mean_sphere_diameter_ci95_um"] = ci
-        out["mean_sphere_diameter_basis"] = f"bootstrap over particles ({bootstrap} resamples)"
+        value = unf.mean_sphere_diameter_um
+        out["mean_sphere_diameter_um"] = value
+        out["mean_sphere_diameter_bootstrap_se_um"] = se
+        out["mean_sphere_diameter_bootstrap_ci95_um"] = ci
+        per_field = [v for v in (r.get("mean_sphere_diameter_um") for r in results)
+                     if v is not None]
+        if value is not None and len(per_field) >= 2:
+            st = field_statistics(per_field, basis="fields")
+            hw = st.t * st.se
+            out["mean_sphere_diameter_se_um"] = st.se
+            out["mean_sphere_diameter_sd_um"] = st.sd
+            out["mean_sphere_diameter_ci95_um"] = [max(0.0, value - hw), value + hw]
+            out["mean_sphere_diameter_dof"] = len(per_field) - 1
+            out["mean_sphere_diameter_basis"] = (
+                f"fields: pooled unfolding ± t·s/√n, s of {len(per_field)} per-field "
+                "unfoldings (Student t)")
+        else:
+            out["mean_sphere_diameter_se_um"] = se
+            out["mean_sphere_diameter_ci95_um"] = ci
+            out["mean_sphere_diameter_basis"] = (
+                f"bootstrap over the particles of one field ({bootstrap} resamples): "
+                "counting noise only, a lower bound on the field-to-field spread")
         out["spheres_per_um3"] = unf.number_per_um3
         out["unfolding"] = unf.to_dict()
         sd = sizes if sizes is not None else size_distribution(ecd, wts)

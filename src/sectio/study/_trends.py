@@ -9,7 +9,8 @@
 Both fits are least squares of a line, ordinary or weighted by 1/σ_y² when every point
 has a standard error (σ_y from the point's own se by first-order propagation,
 σ(x^n) = n·x^(n−1)·σ(x)). The slope's 95 % interval uses Student's t with n − 2 degrees of
-freedom and, for the weighted fit, the residual scale (as ``scipy.optimize.curve_fit`` with
+freedom (a fit with fewer than 2 is flagged ``fewer_than_2_residual_dof``: its R² says
+nothing) and, for the weighted fit, the residual scale (as ``scipy.optimize.curve_fit`` with
 ``absolute_sigma=False``), so scatter beyond the error bars widens the interval. Pure
 functions: no I/O.
 """
@@ -41,9 +42,16 @@ class LineFit:
     dof: int
     r_squared: float | None
     method: str  # "ols" or "wls"
+    flags: tuple[str, ...] = ()
 
     def to_dict(self) -> dict:
         return {k: (list(v) if isinstance(v, tuple) else v) for k, v in self.__dict__.items()}
+
+
+#: Flag of a line fitted with fewer than two residual degrees of freedom (n ≤ 3 points for
+#: two parameters): the points nearly fix the line, R² is close to 1 whatever the data and
+#: the slope interval rests on one degree of freedom (t(0.975, 1) = 12.7).
+FEW_DOF_FLAG = "fewer_than_2_residual_dof"
 
 
 def fit_line(x, y, *, y_se=None) -> LineFit:
@@ -101,14 +109,17 @@ def fit_line(x, y, *, y_se=None) -> LineFit:
 
         warnings.warn("two points fix a line exactly: no interval for the trend slope.",
                       DegenerateDataWarning, stacklevel=2)
-        return LineFit(float(slope), float(icpt), None, None, None, None, n, dof, r2, method)
+        return LineFit(float(slope), float(icpt), None, None, None, None, n, dof, r2, method,
+                       (FEW_DOF_FLAG,))
     chi2_red = float((w * resid**2).sum()) / dof
     slope_se = float(np.sqrt(s / delta * chi2_red))
     icpt_se = float(np.sqrt(sxx / delta * chi2_red))
     t = t_critical(dof)
+    flags = (FEW_DOF_FLAG,) if dof < 2 else ()
     return LineFit(float(slope), float(icpt), slope_se, icpt_se,
                    (float(slope - t * slope_se), float(slope + t * slope_se)),
-                   (float(icpt - t * icpt_se), float(icpt + t * icpt_se)), n, dof, r2, method)
+                   (float(icpt - t * icpt_se), float(icpt + t * icpt_se)), n, dof, r2, method,
+                   flags)
 
 
 @dataclass(frozen=True)
