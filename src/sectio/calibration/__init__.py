@@ -25,8 +25,10 @@ from ._metadata import FileSize, file_sizes, unit_um
 from ._strip import InfoStrip, find_info_strips
 
 __all__ = ["DISAGREEMENT", "ENV_FILE", "MAX_PIXEL_UM", "MIN_PIXEL_UM", "FileSize", "InfoStrip",
-           "Resolved", "calibrate_image", "check_pixel_size_um", "file_sizes",
-           "find_info_strips", "resolve_pixel_size", "unit_um"]
+           "Resolved", "RulingMeasurement", "calibrate_image", "calibrate_objective",
+           "calibration_file_path", "check_pixel_size_um", "file_sizes", "find_info_strips",
+           "lookup_objective", "measure_ruling", "read_bar_length", "read_calibrations",
+           "resolve_pixel_size", "store_objective", "unit_um"]
 
 MIN_PIXEL_UM = 1e-4  # 0.1 nm
 MAX_PIXEL_UM = 1e3  # 1 mm
@@ -141,4 +143,22 @@ def resolve_pixel_size(
 
 # After resolve_pixel_size: _apply imports it from this package.
 from ._apply import calibrate_image  # noqa: E402
-from ._objectives import ENV_FILE  # noqa: E402
+from ._objectives import (  # noqa: E402
+    ENV_FILE,
+    calibration_file_path,
+    lookup_objective,
+    read_calibrations,
+    store_objective,
+)
+
+#: imported on first use (scipy and Pillow stay out of ``sectio --help``)
+_LAZY = {"calibrate_objective": "_calibrate", "RulingMeasurement": "_micrometer",
+         "measure_ruling": "_micrometer", "read_bar_length": "_label"}
+
+
+def __getattr__(name: str):
+    if name in _LAZY:
+        import importlib
+
+        return getattr(importlib.import_module(f"{__name__}.{_LAZY[name]}"), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -36,7 +36,7 @@ def calibrate_command(image, objective, division, scale_bar, calibration_file, m
 
     Example:  sectio calibrate micrometer_50x.tif --objective 50x --division 10um
     """
-    from ..calibration._calibrate import calibrate_objective
+    from ..calibration import calibrate_objective
 
     rec, path, old = calibrate_objective(
         image, objective=objective, division=division, scale_bar=scale_bar,

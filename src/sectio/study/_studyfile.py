@@ -339,7 +339,7 @@ def _strength_options(rep, key, table: dict) -> dict:
 
 
 def _calibration(rep, key, table: dict, folder: Path, default_file: str | None) -> dict:
-    from ..calibration._objectives import lookup_objective
+    from ..calibration import lookup_objective
     from ..units import parse_length_um
 
     cal = {"pixel_size": None, "scale_bar": None, "crop_bottom": 0}
