@@ -14,21 +14,43 @@ from __future__ import annotations
 
 __version__ = "0.1.0"
 
-__all__ = ["__version__", "load", "measure_grains", "measure_particles"]
+__all__ = [
+    "__version__",
+    "estimate_strength",
+    "load",
+    "measure_grains",
+    "measure_particles",
+    "stereology",
+    "strength",
+    "study",
+    "summarize_grains",
+    "summarize_particles",
+]
+
+# name -> (module, attribute or None for the module itself)
+_LAZY = {
+    "load": (".micrograph", "load"),
+    "measure_grains": (".grains", "measure_grains"),
+    "summarize_grains": (".grains", "summarize_grains"),
+    "measure_particles": (".particles", "measure_particles"),
+    "summarize_particles": (".particles", "summarize_particles"),
+    "estimate_strength": (".strength", "estimate_from_summaries"),
+    "strength": (".strength", None),
+    "stereology": (".stereology", None),
+    "study": (".study", None),
+}
 
 
 def __getattr__(name: str):
     # Lazy public API: keeps `import sectio` (and `sectio --help`) light.
-    if name == "load":
-        from .micrograph import load
+    if name in _LAZY:
+        from importlib import import_module
 
-        return load
-    if name == "measure_grains":
-        from .grains import measure_grains
-
-        return measure_grains
-    if name == "measure_particles":
-        from .particles import measure_particles
-
-        return measure_particles
+        module, attr = _LAZY[name]
+        mod = import_module(module, __name__)
+        return mod if attr is None else getattr(mod, attr)
     raise AttributeError(f"module 'sectio' has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__))

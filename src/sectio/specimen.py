@@ -246,7 +246,8 @@ def measure_field(kind: str, micrograph, options, *, chords: bool = False,
 
 def measure_images(kind: str, images: Iterable, options: Mapping, *, calibration: Mapping,
                    out: Path, on_skip: Callable[[str, InputError], None] | None = None,
-                   example_pixel_size: str = "0.5um") -> list[FieldRecord]:
+                   example_pixel_size: str = "0.5um",
+                   progress: Callable[[list], Iterable] | None = None) -> list[FieldRecord]:
     """Measure image files one after the other, with their hand edits from ``out``, writing
     each overlay into ``out``.
 
@@ -256,7 +257,8 @@ def measure_images(kind: str, images: Iterable, options: Mapping, *, calibration
     nothing found) is recorded as failed and the rest go on; an
     :class:`~sectio.errors.OptionError` (the same for every field) stops the run. When
     every image failed for want of a pixel size and none was given, a
-    :class:`~sectio.errors.CalibrationError` says how to give one.
+    :class:`~sectio.errors.CalibrationError` says how to give one. ``progress`` wraps the
+    list of images for the loop (e.g. a progress bar); the library itself prints nothing.
     """
     from .micrograph import load
     from .report import atomic_write_bytes
@@ -265,7 +267,7 @@ def measure_images(kind: str, images: Iterable, options: Mapping, *, calibration
     records, used, used_edits = [], set(), set()
     images = list(images)
     calibration_failures = 0
-    for path in images:
+    for path in (progress(images) if progress else images):
         try:
             mg = load(path, **calibration)
             measured = measure_field(kind, mg, options, edit_folder=out, used_edits=used_edits)

@@ -210,3 +210,15 @@ def test_option_errors():
         est(particles=no_density, spacing="planar_edge")
     with pytest.raises(SummaryError, match="Nothing to estimate from"):
         est(grains=None)
+
+
+def test_public_api_from_import_sectio():
+    import sectio
+
+    assert {"strength", "summarize_grains", "summarize_particles", "estimate_strength"} <= set(
+        dir(sectio))
+    assert sectio.strength.hall_petch_mpa(20.0, sigma0_mpa=70.0, k_mpa_sqrt_m=0.74) == \
+        pytest.approx(235.5, abs=0.1)  # REFERENCES §4.3 worked number
+    assert sectio.estimate_strength is sectio.strength.estimate_from_summaries
+    for name in sectio.__all__:
+        assert getattr(sectio, name) is not None

@@ -10,6 +10,18 @@ def echo_skipped(image: str, exc: Exception) -> None:
     click.echo(f"{image}: skipped: {exc}", err=True)
 
 
+def progress_bar(items, *, desc: str, unit: str = "field"):
+    """``items`` wrapped in a tqdm progress bar on stderr; off when stderr is not a terminal
+    (pipes, logs, CI), so output files and captured output stay clean."""
+    import sys
+
+    from tqdm import tqdm
+
+    items = list(items)
+    return tqdm(items, desc=desc, unit=unit, file=sys.stderr, leave=False,
+                disable=not sys.stderr.isatty() or len(items) < 1, dynamic_ncols=True)
+
+
 def fmt(value, spec: str) -> str:
     """Format a number for a printed table; ``-`` for a missing value."""
     return "-" if value is None else format(value, spec)

@@ -14,7 +14,7 @@ import click
 
 from ..errors import OptionError
 from ._calibration import calibration_options
-from ._common import echo_skipped, max_image_memory_option
+from ._common import echo_skipped, max_image_memory_option, progress_bar
 from ._common import fmt as _fmt
 
 
@@ -163,7 +163,8 @@ def grains_command(
     calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
                    **calibration_options}
     records = measure_images("grains", images, measure_kwargs, calibration=calibration,
-                             out=out, on_skip=echo_skipped, example_pixel_size="0.5um")
+                             out=out, on_skip=echo_skipped, example_pixel_size="0.5um",
+                             progress=lambda xs: progress_bar(xs, desc="grains"))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # one-field degeneracy is stated in ci_basis
         part = grains_document(records, calibration=calibration, options=opts, edits=True)

@@ -15,7 +15,7 @@ import click
 
 from ..errors import OptionError
 from ._calibration import calibration_options
-from ._common import echo_skipped, max_image_memory_option
+from ._common import echo_skipped, max_image_memory_option, progress_bar
 from ._common import fmt as _fmt
 
 
@@ -70,7 +70,8 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
     measure = {"phase": phase, "threshold": threshold, "min_size_um": min_size_um,
                "split": not no_split, "foil_thickness_um": foil_um, "seed": seed}
     records = measure_images("particles", images, measure, calibration=calibration, out=out,
-                             on_skip=echo_skipped, example_pixel_size="0.02um")
+                             on_skip=echo_skipped, example_pixel_size="0.02um",
+                             progress=lambda xs: progress_bar(xs, desc="particles"))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # single-field degeneracy is reported in "basis"
         part = particles_document(records, calibration=calibration, measure=measure, edits=True)

@@ -123,7 +123,9 @@ def synth_grains_command(
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     rng = np.random.default_rng(seed)
-    for k in range(1, fields + 1):
+    from ._common import progress_bar
+
+    for k in progress_bar(range(1, fields + 1), desc="synthetic fields"):
         img, truth = synthetic_grains(
             (h, w),
             n_grains,
