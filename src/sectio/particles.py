@@ -24,7 +24,12 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .micrograph import Micrograph
-from .segment import MOSTLY_PARTICLE, ParticleSegmentation, segment_particles
+from .segment import (
+    MOSTLY_PARTICLE,
+    ParticleSegmentation,
+    partial_area_fraction,
+    segment_particles,
+)
 from .stereology import (
     ParticleTable,
     SizeDistribution,
@@ -77,6 +82,10 @@ class ParticleField:
     subregions: dict
     flags: tuple[str, ...]
     options: dict = field(default_factory=dict)
+    #: flags that mean the result is probably wrong (a subset of ``flags``)
+    suspect: tuple[str, ...] = ()
+    area_fraction_edge_corrected: float | None = None
+    notes: tuple[str, ...] = ()
 
     @property
     def image(self) -> str:
@@ -121,14 +130,31 @@ class ParticleField:
             "centre_spacing_um": self.centre_spacing_um,
             "mean_sphere_diameter_um": None if u is None else u.mean_sphere_diameter_um,
             "spheres_per_um3": None if u is None else u.number_per_um3,
+            "area_fraction_edge_corrected": self.area_fraction_edge_corrected,
+            "phase": self.segmentation.phase,
+            "phase_requested": self.segmentation.options.get("phase_requested"),
+            "method": self.segmentation.options.get("method"),
             "threshold": self.segmentation.threshold,
             "threshold_method": self.segmentation.threshold_method,
+            "segmentation": {
+                "method": self.segmentation.options.get("method"),
+                "level": self.segmentation.threshold,
+                "level_scale": "flattened, denoised image, 0-1",
+                "region_particle_fraction": self.segmentation.region_fraction,
+                "particle_continuity": self.segmentation.particle_continuity,
+                "matrix_continuity": self.segmentation.matrix_continuity,
+                "region_separability": self.segmentation.region_separability,
+                "region_significance": self.segmentation.region_significance,
+            },
             "matrix_level": self.segmentation.matrix_level,
             "particle_level": self.segmentation.particle_level,
             "size_distribution_ecd": self.sizes.to_dict(),
             "unfolding": None if u is None else u.to_dict(),
             "subregions": self.subregions,
             "flags": list(self.flags),
+            "suspect_flags": list(self.suspect),
+            "probably_wrong": bool(self.suspect),
+            "notes": list(self.notes),
         }
         if particles:
             d["particles"] = self.table.rows(self.micrograph.pixel_size_um)
@@ -198,14 +224,18 @@ def measure_particles(
     n_classes: int = 10,
     foil_thickness_um: float | None = None,
     seed: int | None = 0,
+    method: str = "auto",
 ) -> ParticleField:
     """Segment and measure the second-phase particles of one field.
 
     Parameters
     ----------
     micrograph : Micrograph
-    phase : {"bright", "dark"}
-        Particles brighter (default) or darker than the matrix.
+    phase : {"bright", "dark", "auto"}
+        Particles brighter (default) or darker than the matrix; ``auto`` takes the
+        continuous phase as the matrix and says which it chose.
+    method : {"auto", "half-contrast", "regions"}
+        Threshold method (:func:`sectio.segment.particles.segment_particles`).
     threshold : float, optional
         Manual threshold in (0, 1) of the flattened image; default automatic.
     min_size_um : float, optional
@@ -237,7 +267,7 @@ def measure_particles(
         raise OptionError("--foil-thickness must be positive, e.g. 80nm.")
     min_area_px = math.pi / 4.0 * (floor_um / s) ** 2
     seg = segment_particles(micrograph.image, phase=phase, threshold=threshold,
-                            min_area_px=min_area_px, split=split)
+                            min_area_px=min_area_px, split=split, method=method)
     return particle_field_from_segmentation(
         micrograph, seg, phase=phase, floor_um=floor_um, points_per_side=points_per_side,
         n_classes=n_classes, foil_thickness_um=foil_thickness_um, seed=seed)
@@ -298,19 +328,10 @@ def particle_field_from_segmentation(
             v_v = foil_volume_fraction(a_a, foil_thickness_um=foil_thickness_um,
                                        mean_d2_um2=unf.moment_um(2),
                                        mean_d3_um3=unf.moment_um(3))
-    flags = []
-    if a_a > MOSTLY_PARTICLE:
-        flags.append(f"mostly particle ({100 * a_a:.0f} % of the field): probably the wrong "
-                     "--phase; check the overlay")
-    other = "dark" if phase == "bright" else "bright"
-    if seg.opposite_fraction > max(0.01, 2.0 * a_a):
-        flags.append(f"{100 * seg.opposite_fraction:.1f} % of the field is clearly {other}er "
-                     f"than the matrix but only {100 * a_a:.1f} % is {phase}er: probably the "
-                     f"wrong --phase (try --phase {other})")
-    if table.label.size == 0:
-        flags.append("no particles found")
-    elif whole.sum() < 30:
-        flags.append(f"only {int(whole.sum())} whole particles: sizes and unfolding are rough")
+    flags, suspect, notes = _field_flags(seg, table, a_a, whole,
+                                         seg.options.get("phase_requested", phase), area_um2)
+    img_bright = seg.flattened if seg.phase == "bright" else 1.0 - seg.flattened
+    a_pv = partial_area_fraction(img_bright, seg.mask)[0] if seg.mask.any() else 0.0
     tiles = 3 if whole.sum() >= 90 else 2
     options = {**seg.options, "min_size_um": floor_um, "points_per_side": points_per_side,
                "n_classes": n_classes, "foil_thickness_um": foil_thickness_um, "seed": seed,
@@ -331,7 +352,58 @@ def particle_field_from_segmentation(
         centre_spacing_um=float(n_a ** -0.5) if n_a > 0 else None,
         sizes=size_distribution(table.ecd_um[whole], wts), unfolding=unf,
         subregions=_subregions(seg.mask, table, tiles, s), flags=tuple(flags), options=options,
+        suspect=tuple(suspect), area_fraction_edge_corrected=float(a_pv), notes=tuple(notes),
     )
+
+
+#: Particle phase "continuous" when its largest piece holds at least this share and the
+#: other phase is broken into islands (common practice: the matrix is continuous).
+CONTINUOUS = 0.9
+#: A particle larger than this share of the field is probably matrix or merged particles.
+LARGEST_SHARE = 0.1
+
+
+def _field_flags(seg, table, a_a, whole, phase_requested, field_area_um2):
+    """Flags of one field; the second list holds those that make it probably wrong."""
+    flags, suspect, notes = [], [], []
+
+    def add(text, wrong):
+        flags.append(text)
+        if wrong:
+            suspect.append(text)
+
+    phase = seg.phase
+    other = "dark" if phase == "bright" else "bright"
+    if phase_requested == "auto":
+        notes.append(f"phase chosen: {phase} (the {other} phase is continuous: the matrix)"
+                     if seg.matrix_continuity - seg.particle_continuity >= 0.3 else
+                     f"phase chosen: {phase} (the larger phase taken as the matrix)")
+    if a_a > MOSTLY_PARTICLE:
+        add(f"mostly particle ({100 * a_a:.0f} % of the field is {phase}er than the "
+            f"matrix): probably the wrong --phase or the wrong matrix; check the overlay",
+            True)
+    if (seg.particle_continuity >= CONTINUOUS and seg.matrix_continuity < 0.5
+            and a_a > 0.2):
+        add(f"the {phase} phase is continuous and the other one is islands: the "
+            f"{phase} phase is probably the matrix (try --phase {other} or --phase auto)",
+            True)
+    if seg.opposite_fraction > max(0.01, 2.0 * a_a) and seg.options.get("method") != "regions":
+        add(f"{100 * seg.opposite_fraction:.1f} % of the field is clearly {other}er "
+            f"than the matrix but only {100 * a_a:.1f} % is {phase}er: probably the "
+            f"wrong --phase (try --phase {other} or --phase auto)", True)
+    if table.label.size == 0:
+        strong = seg.region_significance >= 6.0 and 0.01 < seg.region_fraction < 0.99
+        add("no particles found" + (" although the image has strong two-phase "
+            "structure: probably a wrong threshold or --phase" if strong else ""), strong)
+    elif whole.sum() < 30:
+        flags.append(f"only {int(whole.sum())} whole particles: sizes and unfolding are rough")
+    if table.label.size:
+        big = float(table.area_um2.max()) / field_area_um2
+        if big > LARGEST_SHARE:
+            add(f"one particle covers {100 * big:.0f} % of the field (more than "
+                f"{100 * LARGEST_SHARE:.0f} %): probably merged particles or matrix "
+                "counted as particle", True)
+    return flags, suspect, notes
 
 
 def summarize_particles(fields, *, bootstrap: int = 200, seed: int = 0) -> dict:

@@ -140,3 +140,20 @@ def test_synth_command_writes_truth(tmp_path):
     assert res.exit_code == 0, res.output
     f = json.loads((tmp_path / "m" / "particles.json").read_text())["fields"][0]
     assert abs(f["area_fraction"] - truth["fields"][0]["area_fraction"]) < 0.003
+
+
+def test_phase_auto_and_exit_1_on_suspect_field(images, tmp_path):
+    # auto: the bright particles are chosen and said so; dark asked: probably wrong, exit 1
+    res = _run([images[0][0], "--pixel-size", "0.02um", "--phase", "auto",
+                "--out", tmp_path / "a"])
+    assert res.exit_code == 0, res.output
+    f = json.loads((tmp_path / "a" / "particles.json").read_text())["fields"][0]
+    assert f["phase"] == "bright" and f["phase_requested"] == "auto"
+    assert f["segmentation"]["method"] == "half-contrast" and f["threshold"] is not None
+    assert f["probably_wrong"] is False and f["notes"][0].startswith("phase chosen: bright")
+    res = _run([images[0][0], "--pixel-size", "0.02um", "--phase", "dark",
+                "--out", tmp_path / "d"])
+    assert res.exit_code == 1
+    f = json.loads((tmp_path / "d" / "particles.json").read_text())["fields"][0]
+    assert f["probably_wrong"] is True and f["suspect_flags"]
+    assert "probably wrong" in res.output

@@ -30,8 +30,14 @@ from ._common import fmt as _fmt
 @click.option("--crop-bottom", type=int, default=0, show_default=True,
               help="Rows of an info strip to drop from the bottom (replaces the automatic "
                    "strip search).")
-@click.option("--phase", type=click.Choice(["bright", "dark"]), default="bright",
-              show_default=True, help="Particles brighter or darker than the matrix.")
+@click.option("--phase", type=click.Choice(["bright", "dark", "auto"]), default="bright",
+              show_default=True,
+              help="Particles brighter or darker than the matrix; auto: the continuous "
+                   "phase is the matrix (the choice is printed and in the JSON).")
+@click.option("--method", type=click.Choice(["auto", "half-contrast", "regions"]),
+              default="auto", show_default=True,
+              help="Threshold method: half-contrast for sparse particles, edge-bounded "
+                   "regions for dense structures; auto picks by the particle share.")
 @click.option("--threshold", type=float, default=None,
               help="Manual threshold, 0-1 of the flattened image (default: automatic).")
 @click.option("--min-size", default=None,
@@ -47,8 +53,9 @@ from ._common import fmt as _fmt
 @max_image_memory_option
 @calibration_options
 @click.pass_context
-def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, threshold,
-                      min_size, no_split, foil_thickness, out_dir, seed, calibration_options):
+def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, method,
+                      threshold, min_size, no_split, foil_thickness, out_dir, seed,
+                      calibration_options):
     """Particle area (= volume) fraction, sizes, spacing and sphere-size unfolding.
 
     Example:  sectio particles field*.tif --pixel-size 0.02um --phase bright --out results
@@ -68,7 +75,8 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
     calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
                    **calibration_options}
     measure = {"phase": phase, "threshold": threshold, "min_size_um": min_size_um,
-               "split": not no_split, "foil_thickness_um": foil_um, "seed": seed}
+               "split": not no_split, "foil_thickness_um": foil_um, "seed": seed,
+               "method": method}
     records = measure_images("particles", images, measure, calibration=calibration, out=out,
                              on_skip=echo_skipped, example_pixel_size="0.02um",
                              progress=lambda xs: progress_bar(xs, desc="particles"))
@@ -78,7 +86,11 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, th
     write_result(out, part)
     doc = part.doc
     _print_table(doc["fields"], doc["summary"], doc["failed"])
-    if doc["failed"]:
+    suspect = [d for d in doc["fields"] if d.get("probably_wrong")]
+    if suspect:
+        click.echo(f"{len(suspect)} field(s) probably wrong (see 'suspect_flags' in the "
+                   "JSON and the README's list of flags)", err=True)
+    if doc["failed"] or suspect:
         ctx.exit(1)
     return 0
 

@@ -185,12 +185,22 @@ def section_image(
     blur_px: float = 1.0,
     noise: float = 0.03,
     bits: int = 8,
+    rim: float = 0.0,
+    rim_px: float = 1.5,
+    channel: float = 0.0,
+    channel_px: float = 6.0,
     rng=None,
 ) -> ParticleSection:
     """Render the section z = 0 of ``population`` as a micrograph.
 
     ``gradient`` is the peak-to-peak of the multiplicative illumination field, ``noise``
     the Gaussian read noise (grey units of a 0–1 image). ``phase="dark"`` swaps the levels.
+
+    Secondary-electron looks: ``rim`` adds a bright edge rim of that height just outside
+    every particle (Gaussian profile of width ``rim_px`` in the distance from the edge);
+    ``channel`` brightens the matrix near particles, decaying over ``channel_px``, so that
+    narrow matrix channels are brighter than wide matrix areas. The truth mask is the
+    discs alone: rims and channels are matrix.
     """
     rng = np.random.default_rng(rng)
     sx, sy = population.field_um
@@ -215,6 +225,15 @@ def section_image(
         np.maximum(cover[r0:r1, c0:c1], np.clip(r - d + 0.5, 0, 1), out=cover[r0:r1, c0:c1])
     lo, hi = (matrix_level, particle_level) if phase == "bright" else (particle_level, matrix_level)
     img = lo + (hi - lo) * cover.astype(float)
+    if rim > 0 or channel > 0:
+        from scipy import ndimage as ndi
+
+        d_out = ndi.distance_transform_edt(~mask)
+        outside = 1.0 - cover
+        if rim > 0:
+            img = img + rim * outside * np.exp(-0.5 * ((d_out - 0.5) / rim_px) ** 2)
+        if channel > 0:
+            img = img + channel * outside * np.exp(-d_out / channel_px)
     img = blur(img, blur_px)
     img = img * smooth_field((h, w), rng, scale_px=max(h, w) / 3, amplitude=gradient)
     img = add_noise(img, rng, sigma=noise)
