@@ -99,7 +99,7 @@ def _print_table(fields, summary, failed) -> None:
     click.echo(f"{'field':<28} {'A_A %':>7} {'P_P %':>7} {'N':>6} {'N_A /um2':>9} "
                f"{'ECD um':>8} {'lambda um':>9}  flags")
     for f in fields:
-        flag = "; ".join(f["flags"])
+        flag = "; ".join(list(f.get("notes", [])) + list(f["flags"]))
         click.echo(f"{os.path.basename(f['image'])[:28]:<28} {100 * f['area_fraction']:7.2f} "
                    f"{100 * f['point_fraction']:7.2f} {f['particles_counted']:6d} "
                    f"{f['particles_per_um2']:9.4g} {_fmt(f['mean_ecd_um'], '8.4g')} "
