@@ -42,6 +42,7 @@ from .stereology import (
     size_distribution,
     unfold_sections,
 )
+from .stereology._size_classes import size_class_table
 
 __all__ = ["ParticleField", "measure_particles", "summarize_particles"]
 
@@ -86,6 +87,7 @@ class ParticleField:
     suspect: tuple[str, ...] = ()
     area_fraction_edge_corrected: float | None = None
     notes: tuple[str, ...] = ()
+    size_classes: dict = field(default_factory=lambda: {"detected": False})
 
     @property
     def image(self) -> str:
@@ -155,6 +157,7 @@ class ParticleField:
             "suspect_flags": list(self.suspect),
             "probably_wrong": bool(self.suspect),
             "notes": list(self.notes),
+            "size_classes": self.size_classes,
         }
         if particles:
             d["particles"] = self.table.rows(self.micrograph.pixel_size_um)
@@ -353,6 +356,9 @@ def particle_field_from_segmentation(
         sizes=size_distribution(table.ecd_um[whole], wts), unfolding=unf,
         subregions=_subregions(seg.mask, table, tiles, s), flags=tuple(flags), options=options,
         suspect=tuple(suspect), area_fraction_edge_corrected=float(a_pv), notes=tuple(notes),
+        size_classes=size_class_table(table.ecd_um, table.area_um2, table.edge, table.weight,
+                                      field_area_um2=area_um2, floor_um=floor_um,
+                                      n_classes=n_classes),
     )
 
 
