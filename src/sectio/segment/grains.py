@@ -179,9 +179,20 @@ def _levels(
         lo = float(opts.threshold_low)
     else:
         sample = _background_sample(strength, hi, sigma)
-        lo = float(np.percentile(sample, opts.noise_percentile)) if sample.size else hi / 2
-        if flat is not None:
-            lo = min(lo, 1.5 * _white_noise_level(opts, sigma, _noise_sigma(flat)))
+        noise = _noise_sigma(flat) if flat is not None else None
+        lo = _noise_low_level(sample, hi, opts, sigma, noise)
+    return _final_levels(hi, lo, opts)
+
+
+def _noise_low_level(sample, hi: float, opts: GrainSegmentOptions, sigma: float, noise) -> float:
+    """The noise percentile of a background sample, capped by the white-noise level."""
+    lo = float(np.percentile(sample, opts.noise_percentile)) if sample.size else hi / 2
+    if noise is not None:
+        lo = min(lo, 1.5 * _white_noise_level(opts, sigma, noise))
+    return lo
+
+
+def _final_levels(hi: float, lo: float, opts: GrainSegmentOptions) -> tuple[float, float]:
     # Noise-free images (drawn or traced boundaries) have a noise level near zero; keep the
     # low level at a fraction of the high one so grain interiors are never "boundary".
     fraction = opts.min_low_fraction
@@ -195,18 +206,39 @@ def _levels(
 
 def _wide_blur(img: np.ndarray, sigma: float) -> np.ndarray:
     """Gaussian blur of a wide sigma, computed on a subsampled image (background only)."""
+    small, f = _blur_subsampled(img, sigma)
+    return upsample_rows(small, img.shape, 0, img.shape[0])
+
+
+def _blur_subsampled(img, sigma: float) -> tuple[np.ndarray, int]:
+    """The wide blur on every f-th pixel (f = sigma // 4): the small background image."""
     f = max(1, int(sigma // 4))
-    small = img[::f, ::f]
-    blurred = ndi.gaussian_filter(small, sigma / f, mode="reflect")
-    out = ndi.zoom(
-        blurred,
-        (img.shape[0] / small.shape[0], img.shape[1] / small.shape[1]),
-        order=1,
-        mode="nearest",
-    )
-    out = out[: img.shape[0], : img.shape[1]]
-    pad = ((0, img.shape[0] - out.shape[0]), (0, img.shape[1] - out.shape[1]))
-    return np.pad(out, pad, mode="edge") if any(p[1] for p in pad) else out
+    return ndi.gaussian_filter(img[::f, ::f], sigma / f, mode="reflect"), f
+
+
+def _linear_axis0(small: np.ndarray, coords: np.ndarray) -> np.ndarray:
+    i0 = np.clip(np.floor(coords).astype(np.intp), 0, small.shape[0] - 1)
+    i1 = np.minimum(i0 + 1, small.shape[0] - 1)
+    t = (coords - i0)[:, None]
+    return small[i0] * (1.0 - t) + small[i1] * t
+
+
+def _zoom_coords(n_out: int, n_in: int) -> np.ndarray:
+    """Input coordinate of every output index when n_in samples are stretched over n_out
+    (end points on end points, as ``scipy.ndimage.zoom`` places them)."""
+    if n_out <= 1 or n_in <= 1:
+        return np.zeros(n_out)
+    return np.arange(n_out) * ((n_in - 1) / (n_out - 1))
+
+
+def upsample_rows(small: np.ndarray, shape, r0: int, r1: int) -> np.ndarray:
+    """Rows r0..r1 of the linear interpolation of ``small`` stretched to ``shape``.
+
+    The same numbers as ``ndi.zoom(small, order=1)`` up to rounding, but any band of rows
+    can be made on its own, identical to the same rows of the whole image (tiled mosaics).
+    """
+    rows = _linear_axis0(small, _zoom_coords(shape[0], small.shape[0])[r0:r1])
+    return _linear_axis0(rows.T, _zoom_coords(shape[1], small.shape[1])).T.astype(np.float32)
 
 
 def _otsu(values: np.ndarray) -> float:
@@ -321,22 +353,27 @@ def _pair_table(labels: np.ndarray, values: np.ndarray):
 
 def _merge_unsupported(labels, on_boundary: np.ndarray, min_support: float):
     """Merge neighbouring regions whose dividing line lies mostly off detected boundaries."""
+    if labels.max() < 2:
+        return labels, 0
+    lut, n_merged = _merge_lut(*_pair_table(labels, on_boundary.astype(np.float32)), min_support)
+    return (labels, 0) if lut is None else (lut[labels], n_merged)
+
+
+def _merge_lut(uk, n, total, supported, min_support: float):
+    """Label map of the merge from the pair table (None when nothing merges)."""
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
 
-    if labels.max() < 2:
-        return labels, 0
-    uk, n, total, supported = _pair_table(labels, on_boundary.astype(np.float32))
     weak = supported / total < min_support
     a, b = uk[weak] // (n + 1), uk[weak] % (n + 1)
     if a.size == 0:
-        return labels, 0
+        return None, 0
     g = coo_matrix((np.ones(a.size), (a, b)), shape=(n + 1, n + 1))
     _, comp = connected_components(g, directed=False)
     uniq, new = np.unique(comp[1:], return_inverse=True)
     lut = np.zeros(n + 1, dtype=np.int32)
     lut[1:] = new + 1
-    return lut[labels], int(n - uniq.size)
+    return lut, int(n - uniq.size)
 
 
 def _absorb_small(labels, min_area_px):
@@ -351,37 +388,51 @@ def _absorb_small(labels, min_area_px):
         return labels, 0
     for _ in range(10):
         counts = np.bincount(labels.ravel())
-        small = (counts < min_area_px) & (counts > 0)
-        small[0] = False
-        if not small.any() or np.count_nonzero(counts[1:] > 0) < 2:
+        if not _any_small(counts, min_area_px):
             break
         uk, n, contacts, _ = _pair_table(labels, np.zeros(labels.shape, np.float32))
-        a, b = uk // (n + 1), uk % (n + 1)
-        own = np.concatenate([a, b])
-        other = np.concatenate([b, a])
-        touch = np.concatenate([contacts, contacts]).astype(float)
-        keep = small[own]
-        own, other, touch = own[keep], other[keep], touch[keep]
-        if own.size == 0:
+        lut = _absorb_lut(counts, uk, n, contacts, min_area_px)
+        if lut is None:
             break
-        # Per small region, the neighbour with the longest shared border (ties: larger).
-        order = np.lexsort((counts[other], touch, own))
-        last = np.r_[own[order][1:] != own[order][:-1], True]
-        lut = np.arange(n + 1)
-        lut[own[order][last]] = other[order][last]
-        # Two small regions pointing at each other join under the smaller label.
-        mutual = lut[lut] == np.arange(n + 1)
-        lut = np.where(mutual, np.minimum(lut, np.arange(n + 1)), lut)
-        for _ in range(8):  # follow chains a -> b -> c
-            nxt = lut[lut]
-            if np.array_equal(nxt, lut):
-                break
-            lut = nxt
         new = lut[labels].astype(np.int32)
         if np.array_equal(new, labels):
             break
         labels = new
     return labels, n_small
+
+
+def _any_small(counts, min_area_px) -> bool:
+    small = (counts < min_area_px) & (counts > 0)
+    small[0] = False
+    return bool(small.any()) and np.count_nonzero(counts[1:] > 0) >= 2
+
+
+def _absorb_lut(counts, uk, n, contacts, min_area_px):
+    """One round of :func:`_absorb_small` as a label map (None when no small region touches
+    another): each small region to its neighbour of longest shared border (ties: larger)."""
+    small = (counts < min_area_px) & (counts > 0)
+    small[0] = False
+    a, b = uk // (n + 1), uk % (n + 1)
+    own = np.concatenate([a, b])
+    other = np.concatenate([b, a])
+    touch = np.concatenate([contacts, contacts]).astype(float)
+    keep = small[own]
+    own, other, touch = own[keep], other[keep], touch[keep]
+    if own.size == 0:
+        return None
+    order = np.lexsort((counts[other], touch, own))
+    last = np.r_[own[order][1:] != own[order][:-1], True]
+    lut = np.arange(n + 1)
+    lut[own[order][last]] = other[order][last]
+    # Two small regions pointing at each other join under the smaller label.
+    mutual = lut[lut] == np.arange(n + 1)
+    lut = np.where(mutual, np.minimum(lut, np.arange(n + 1)), lut)
+    for _ in range(8):  # follow chains a -> b -> c
+        nxt = lut[lut]
+        if np.array_equal(nxt, lut):
+            break
+        lut = nxt
+    return lut
 
 
 def _relabel_sequential(labels):
