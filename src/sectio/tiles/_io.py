@@ -55,7 +55,9 @@ def _read_rows(tif, page, r0: int, r1: int) -> np.ndarray:
         row_bytes = w * samples * dtype.itemsize
         out = np.empty((r1 - r0) * w * samples, dtype)
         fh.seek(page.dataoffsets[0] + r0 * row_bytes)
-        fh.readinto(out.view(np.uint8))
+        if fh.readinto(out.view(np.uint8)) != out.nbytes:
+            raise ImageReadError(f"{fh.path} ends before its image data does (rows {r0} to "
+                                 f"{r1}); the file is truncated: copy or export it again.")
         return out.reshape((r1 - r0, w) + ((samples,) if samples > 1 else ())).astype(
             dtype.newbyteorder("="), copy=False)
     if page.planarconfig != 1 and samples > 1:
@@ -69,6 +71,10 @@ def _read_rows(tif, page, r0: int, r1: int) -> np.ndarray:
             index = iy * nx + ix
             fh.seek(page.dataoffsets[index])
             data = fh.read(page.databytecounts[index])
+            if len(data) != page.databytecounts[index]:
+                raise ImageReadError(f"{fh.path} ends before its image data does (segment "
+                                     f"{index}); the file is truncated: copy or export it "
+                                     "again.")
             seg, _, _ = page.decode(data, index, jpegtables=page.jpegtables)
             seg = np.asarray(seg).reshape(-1, seg.shape[-3], seg.shape[-2], seg.shape[-1])[0]
             y0, x0 = iy * ch, ix * cw
