@@ -27,6 +27,7 @@ from ._intercepts import (
     InterceptCount,
     circle_centres,
     count_crossings,
+    cyclic_crossings,
     intercept_lengths_px,
     mean_lineal_intercept,
 )
@@ -60,6 +61,7 @@ __all__ = [
     "astm_g_from_grains_per_mm2",
     "astm_g_from_intercept_um",
     "circle_centres",
+    "cyclic_crossings",
     "count_crossings",
     "edge_and_corner_labels",
     "feret_diameters",

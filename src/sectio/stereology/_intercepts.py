@@ -185,6 +185,9 @@ def _cyclic_crossings(v: np.ndarray, step_px: float, min_run_px: float = 1.5) ->
     return len(labels) if len(labels) > 1 else 0
 
 
+cyclic_crossings = _cyclic_crossings  # public name (label samples around one closed line)
+
+
 def _circle_crossings(lab: np.ndarray, r: float) -> tuple[int, float]:
     centres = circle_centres(lab.shape, r)
     if not centres:

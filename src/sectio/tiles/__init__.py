@@ -18,12 +18,12 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..errors import CalibrationError, ImageReadError, OptionError
-from ..stereology._grainsize import (
+from ..stereology import (
+    InterceptCount,
     astm_g_from_grains_per_mm2,
     astm_g_from_intercept_um,
     iso643_g_from_grains_per_mm2,
 )
-from ..stereology._intercepts import InterceptCount
 from ._grains import TileOptions, segment_and_count
 from ._io import DiskArray, TiffRows
 

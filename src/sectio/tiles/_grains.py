@@ -43,7 +43,7 @@ from scipy import ndimage as ndi
 
 from ..errors import MeasurementError, OptionError
 from ..segment import grains as sg
-from ..stereology._intercepts import InterceptCount, _cyclic_crossings, circle_centres
+from ..stereology import InterceptCount, circle_centres, cyclic_crossings
 from ._io import DiskArray
 from ._stitch import BandLabels, components, offsets
 
@@ -577,7 +577,7 @@ def _run(ctx: _Ctx, runner: _Runner, nb: int, opts, angles, spacing, radius, sub
     for r in res:
         vals[r[4][0]] = r[4][1]
     step = 2 * np.pi * radius / npts if npts else 0.0
-    circ = sum(_cyclic_crossings(vals[i * npts : (i + 1) * npts], step)
+    circ = sum(cyclic_crossings(vals[i * npts : (i + 1) * npts], step)
                for i in range(len(centres)))
     left = np.concatenate([r[5][0] for r in res])
     right = np.concatenate([r[5][1] for r in res])
