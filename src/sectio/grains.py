@@ -15,6 +15,7 @@ import numpy as np
 from .errors import DegenerateDataWarning, OptionError
 from .micrograph import Micrograph
 from .segment import GrainSegmentation, GrainSegmentOptions, segment_grains
+from .segment.twins import merge_twins
 from .stereology import (
     InterceptCount,
     astm_g_from_grains_per_mm2,
@@ -42,11 +43,13 @@ class GrainOptions:
     circle_radius_fraction: float = 0.2  # circle radius as a fraction of the shorter side
     min_grain_size_um: float | None = None  # minimum equivalent circle diameter (physical)
     subregions: int = 3  # n × n sub-regions for a one-field confidence interval
+    twins: str = "exclude"  # "exclude": twin boundaries are not grain boundaries (E112)
 
     def to_dict(self) -> dict:
         d = {
             k: getattr(self, k)
             for k in (
+                "twins",
                 "angles_deg",
                 "line_spacing_px",
                 "circle_radius_fraction",
@@ -98,6 +101,7 @@ def make_options(
     threshold_high: float | None = None,
     threshold_low: float | None = None,
     subregions: int = 3,
+    twins: str = "exclude",
 ) -> GrainOptions:
     """Build :class:`GrainOptions` from user-facing values (units accepted for sizes)."""
     from ._checks import check_number
@@ -115,6 +119,8 @@ def make_options(
     if threshold_low is not None:
         threshold_low = check_number(threshold_low, what="threshold_low", name="threshold_low")
     angles_deg = check_angles(angles_deg)
+    if twins not in ("exclude", "include"):
+        raise OptionError(f"--twins must be exclude or include, got {twins!r}.")
     min_um = None
     if min_grain_size is not None:
         min_um = parse_length_um(
@@ -137,6 +143,7 @@ def make_options(
         line_spacing_px=int(line_spacing_px),
         min_grain_size_um=min_um,
         subregions=int(subregions),
+        twins=twins,
     )
 
 
@@ -154,6 +161,11 @@ class GrainField:
     subregion_intercepts_um: tuple[float, ...]
     segmentation: GrainSegmentation
     options: GrainOptions
+    # Regions with every twin band its own region, and the counts with and without twins
+    # (``labels``/``counts`` are the ones the grain size uses, per ``options.twins``).
+    region_labels: np.ndarray | None = None
+    counts_with_twins: InterceptCount | None = None
+    counts_without_twins: InterceptCount | None = None
 
     # -- headline numbers -------------------------------------------------------------
     @property
@@ -191,6 +203,16 @@ class GrainField:
         v = np.asarray(list(self.direction_intercepts_um.values()))
         v = v[np.isfinite(v)]
         return float(v.max() / v.min()) if v.size >= 2 else float("nan")
+
+    @property
+    def twin_boundary_fraction(self) -> float:
+        """Twin boundary length over all boundary length (grain + twin). Boundary length per
+        area is (π/2)·P_L (REFERENCES.md §3.1), so the share is 1 − P_L(without)/P_L(with)."""
+        if self.counts_with_twins is None or self.counts_without_twins is None:
+            return 0.0
+        with_ = self.counts_with_twins.mean_intercept_px
+        without = self.counts_without_twins.mean_intercept_px
+        return float(max(0.0, 1.0 - with_ / without)) if without > 0 else 0.0
 
     def grain_table(self) -> list[dict]:
         """One row per grain: area, equivalent circle diameter, centroid, edge contact."""
@@ -230,9 +252,26 @@ class GrainField:
         a_um2 = areas_px * self.pixel_size_um**2
         ecd = np.sqrt(4 * a_um2 / np.pi)
         seg = self.segmentation
+        px = self.pixel_size_um
+        with_, without = self.counts_with_twins, self.counts_without_twins
         return {
             **self.micrograph.to_dict(),
             "mean_intercept_um": self.mean_intercept_um,
+            "twins": self.options.twins,
+            "astm_g_uses": (
+                "mean intercept without twin boundaries"
+                if self.options.twins == "exclude"
+                else "mean intercept counting twin boundaries"
+            ),
+            "mean_intercept_without_twins_um": (
+                without.mean_intercept_px * px if without else self.mean_intercept_um
+            ),
+            "mean_intercept_with_twins_um": (
+                with_.mean_intercept_px * px if with_ else self.mean_intercept_um
+            ),
+            "twin_boundary_fraction": self.twin_boundary_fraction,
+            "twin_pair_count": int(len(seg.twin_pairs)),
+            "twinned": bool(self.twin_boundary_fraction > 0.02),
             "intercept_count": self.counts.total_crossings,
             "test_line_length_um": float(sum(self.counts.length_px)) * self.pixel_size_um,
             "direction_intercepts_um": self.direction_intercepts_um,
@@ -264,6 +303,7 @@ class GrainField:
                 "scratches_removed": seg.n_scratches_removed,
                 "regions_merged": seg.n_merged,
                 "small_regions_absorbed": seg.n_small_removed,
+                "scale_lowered_for_twins": seg.twin_rescaled,
             },
         }
 
@@ -332,7 +372,13 @@ def grain_field_from_labels(
     """Measure a grain label map (from the segmentation, possibly corrected by hand).
 
     Label 0 marks pixels left out of the field (see :mod:`sectio.stereology._intercepts`).
+    Twin pairs (``segmentation.twin_pairs``) refer to the labels of this map: with
+    ``options.twins == "exclude"`` each twin joins its parent before counting.
     """
+    regions = labels
+    pairs = segmentation.twin_pairs
+    grains = merge_twins(regions, pairs) if len(pairs) else regions
+    labels = grains if options.twins == "exclude" else regions
     radius = options.circle_radius_fraction * min(labels.shape) / 2.0
     counts = count_crossings(
         labels,
@@ -340,6 +386,12 @@ def grain_field_from_labels(
         line_spacing_px=options.line_spacing_px,
         circle_radius_px=radius,
     )
+    other = count_crossings(
+        regions if options.twins == "exclude" else grains,
+        angles_deg=options.angles_deg,
+        line_spacing_px=options.line_spacing_px,
+    ) if len(pairs) else counts
+    with_, without = (other, counts) if options.twins == "exclude" else (counts, other)
     left_out = labels == 0  # pixels left out of the field by hand
     pc = planimetric_count(labels, left_out=left_out if left_out.any() else None)
     return GrainField(
@@ -353,6 +405,9 @@ def grain_field_from_labels(
         subregion_intercepts_um=_subregion_intercepts(labels, options, micrograph.pixel_size_um),
         segmentation=segmentation,
         options=options,
+        region_labels=regions,
+        counts_with_twins=with_,
+        counts_without_twins=without,
     )
 
 
@@ -407,6 +462,15 @@ def summarize_grains(fields: list[GrainField] | list[dict], *, target_pct: float
     ]
     out["astm_g_planimetric"] = float(astm_g_from_grains_per_mm2(s_n.mean))
     out["iso643_g_planimetric"] = float(iso643_g_from_grains_per_mm2(s_n.mean))
+    out["twins"] = dicts[0].get("twins", "exclude")
+    out["astm_g_uses"] = dicts[0].get("astm_g_uses", "mean intercept")
+    for key in (
+        "mean_intercept_without_twins_um",
+        "mean_intercept_with_twins_um",
+        "twin_boundary_fraction",
+    ):
+        vals = [d[key] for d in dicts if d.get(key) is not None]
+        out[key] = float(np.mean(vals)) if vals else None
     out["intercept_count_total"] = int(sum(d["intercept_count"] for d in dicts))
     out["grain_count_total"] = int(sum(d["grain_count"] for d in dicts))
     return out

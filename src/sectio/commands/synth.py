@@ -78,6 +78,14 @@ def synth_group():
     show_default=True,
     help="Pixel size written into the TIFF resolution tags.",
 )
+@click.option(
+    "--twins",
+    type=float,
+    default=0.0,
+    show_default=True,
+    help="Share of the grains (large enough) that get annealing twin bands; the truth "
+    "then gives the intercept with and without twin boundaries.",
+)
 @click.option("--fields", type=int, default=1, show_default=True, help="Number of images.")
 @click.option("--seed", type=int, default=0, show_default=True)
 @click.option("--prefix", default="grains", show_default=True, help="File name prefix.")
@@ -91,13 +99,15 @@ def synth_grains_command(
     boundary_width,
     bright_boundaries,
     pixel_size,
+    twins,
     fields,
     seed,
     prefix,
 ):
     """Etched grain structures (Voronoi, hard-core, duplex) with their exact label maps.
 
-    Writes PREFIX_NN.tif (calibrated TIFF), PREFIX_NN_labels.tif and PREFIX_NN_truth.json
+    Writes PREFIX_NN.tif (calibrated TIFF), PREFIX_NN_labels.tif (with --twins also
+    PREFIX_NN_twin_labels.tif, every twin band its own region) and PREFIX_NN_truth.json
     holding the true mean lineal intercept and grains per mm².
     """
     import numpy as np
@@ -135,12 +145,17 @@ def synth_grains_command(
             contrast=contrast,
             boundary_width_px=boundary_width,
             bright_boundaries=bright_boundaries,
+            twins=dict(twinned_fraction=twins) if twins > 0 else None,
         )
         stem = f"{prefix}_{k:02d}"
         write_calibrated_tiff(out / f"{stem}.tif", img, px_um)
         import tifffile
 
         tifffile.imwrite(out / f"{stem}_labels.tif", truth.labels.astype(np.uint32))
+        if truth.twin_labels is not None:
+            tifffile.imwrite(
+                out / f"{stem}_twin_labels.tif", truth.twin_labels.astype(np.uint32)
+            )
         counts = count_crossings(truth.labels)
         l_um = counts.mean_intercept_px * px_um
         na = planimetric_count(truth.labels).grains_per_mm2(px_um)
@@ -160,6 +175,12 @@ def synth_grains_command(
                 "grains_per_mm2": na,
                 "astm_g_intercept": float(astm_g_from_intercept_um(l_um)),
                 "astm_g_planimetric": float(astm_g_from_grains_per_mm2(na)),
+                "twinned_fraction": twins,
+                "mean_intercept_with_twins_um": (
+                    count_crossings(truth.twin_labels).mean_intercept_px * px_um
+                    if truth.twin_labels is not None
+                    else l_um
+                ),
             },
         )
         click.echo(f"{stem}.tif  {truth.n_grains} grains  true mean intercept {l_um:.3g} um")

@@ -12,6 +12,7 @@ from ._io import atomic_write_bytes
 BOUNDARY_RGB = (255, 170, 0)
 LINE_RGB = (90, 180, 255)
 CROSSING_RGB = (255, 0, 200)
+TWIN_RGB = (0, 200, 120)  # twin boundaries: green
 
 
 def boundary_pixels(labels: np.ndarray) -> np.ndarray:
@@ -79,7 +80,15 @@ def grain_overlay(field, *, max_lines_per_direction: int = 12) -> np.ndarray:
         ch = np.nonzero(v != np.roll(v, 1))[0]
         cross[yy[ch], xx[ch]] = True
     rgb[lines_mask] = 0.45 * rgb[lines_mask] + 0.55 * np.array(LINE_RGB, np.float32)
+    regions = getattr(field, "region_labels", None)
+    pairs = field.segmentation.twin_pairs
+    if regions is not None and len(pairs):
+        from ..segment.twins import twin_boundary_mask
+
+        rgb[twin_boundary_mask(regions, pairs)] = TWIN_RGB
     b = boundary_pixels(labels)
+    if regions is not None and len(pairs) and field.options.twins == "include":
+        b &= ~twin_boundary_mask(regions, pairs)
     rgb[b] = BOUNDARY_RGB
     from scipy import ndimage as ndi
 
@@ -99,7 +108,9 @@ def overlay_png_bytes(field) -> bytes:
         f"mean lineal intercept {d['mean_intercept_um']:.3g} µm ({d['intercept_count']} crossings)",
         f"G(intercept) {d['astm_g_intercept']:.1f}   G(planimetric) "
         f"{d['astm_g_planimetric']:.1f}   {d['grain_count']} grains",
-        "amber: boundaries  blue: test lines (subset)  magenta: crossings",
+        f"G uses the {d['astm_g_uses']}; with twins {d['mean_intercept_with_twins_um']:.3g} um, "
+        f"twin boundaries {100 * d['twin_boundary_fraction']:.0f} % of boundary length",
+        "amber: boundaries  green: twin boundaries  blue: test lines (subset)  magenta: crossings",
     ]
     return overlay_png(rgb, d["pixel_size_um"], caption)
 

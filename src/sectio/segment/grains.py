@@ -29,7 +29,7 @@ values used are recorded in :class:`GrainSegmentation`):
 from __future__ import annotations
 
 import os
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, field, replace
 
 import numpy as np
 from scipy import ndimage as ndi
@@ -64,6 +64,8 @@ class GrainSegmentOptions:
     scratch_votes: float = 0.3  # Hough votes needed, as a fraction of the minimum length
     scratch_gap_fraction: float = 0.0  # largest gap bridged along a scratch (of the shorter side)
     remove_pits: bool = True
+    detect_twins: bool = True  # straight parallel-sided bands (sectio.segment.twins)
+    twin_scale_to_width: float = 5.0  # twinned: scale ≤ median band width / 5
 
     def __post_init__(self):
         if self.boundaries not in ("dark", "bright"):
@@ -94,6 +96,9 @@ class GrainSegmentation:
     n_small_removed: int
     ridge_sigma_px: float = 1.5
     typical_region_px: float = 0.0  # √ median area of the watershed regions before merging
+    # Twin-related region pairs of ``labels`` (sectio.segment.twins): (k, 2) int32.
+    twin_pairs: np.ndarray = field(default_factory=lambda: np.zeros((0, 2), np.int32))
+    twin_rescaled: bool = False  # the scale was lowered to resolve narrow twin bands
 
 
 def flatten(image: np.ndarray, sigma_px: float | None = None) -> np.ndarray:
@@ -351,11 +356,41 @@ def _pair_table(labels: np.ndarray, values: np.ndarray):
     return uk, n, np.bincount(inv), np.bincount(inv, weights=v)
 
 
-def _merge_unsupported(labels, on_boundary: np.ndarray, min_support: float):
-    """Merge neighbouring regions whose dividing line lies mostly off detected boundaries."""
+def _two_label_pixels(labels: np.ndarray, radius: int) -> np.ndarray:
+    """Pixels whose (2·radius+1)² window holds at most two labels (away from junctions
+    and from other boundaries). Two orders of the labels are checked by their window
+    minimum and maximum; a third label hides from both only by chance."""
+    size = 2 * radius + 1
+    out = np.ones(labels.shape, bool)
+    n = int(labels.max()) + 1
+    perm = np.random.default_rng(0).permutation(n).astype(np.int32)
+    for lab in (labels, perm[labels]):
+        lo = ndi.minimum_filter(lab, size=size)
+        hi = ndi.maximum_filter(lab, size=size)
+        out &= (lab == lo) | (lab == hi)
+    return out
+
+
+def _merge_unsupported(labels, on_boundary: np.ndarray, min_support: float,
+                       junction_px: int = 0):
+    """Merge neighbouring regions whose dividing line lies mostly off detected boundaries.
+
+    With ``junction_px``, a dividing line is judged on its pixels farther than that from
+    any third region (where the halo of the boundaries it runs into cannot lend it
+    support): a short cross line in a narrow band is judged on its middle, not on its
+    ends. Lines with fewer than two such pixels are judged on all of theirs.
+    """
     if labels.max() < 2:
         return labels, 0
-    lut, n_merged = _merge_lut(*_pair_table(labels, on_boundary.astype(np.float32)), min_support)
+    uk, n, total, supported = _pair_table(labels, on_boundary.astype(np.float32))
+    if junction_px > 0:
+        inner = _two_label_pixels(labels, junction_px)
+        _, _, _, n_inner = _pair_table(labels, inner.astype(np.float32))
+        _, _, _, sup_inner = _pair_table(labels, (inner & on_boundary).astype(np.float32))
+        use = n_inner >= 2
+        supported = np.where(use, sup_inner, supported)
+        total = np.where(use, n_inner, total)
+    lut, n_merged = _merge_lut(uk, n, total, supported, min_support)
     return (labels, 0) if lut is None else (lut[labels], n_merged)
 
 
@@ -537,7 +572,30 @@ def segment_grains(
     opts = options or GrainSegmentOptions()
     sigma, typical_px = _choose_scale(image, opts)
     flat = flatten(image, opts.flatten_sigma_px)
-    return _segment_at_scale(flat, opts, sigma, typical_px)
+    seg = _segment_at_scale(flat, opts, sigma, typical_px)
+    if not opts.detect_twins:
+        return seg
+    return _with_twins(seg, flat, opts)
+
+
+def _with_twins(seg: GrainSegmentation, flat, opts: GrainSegmentOptions) -> GrainSegmentation:
+    """Twin pairs of the region map. A twinned field whose narrow bands are blurred
+    together at the chosen scale (the scale above 1/``twin_scale_to_width`` of the median
+    band width, five bands or more, one of them ending inside its grain) is segmented
+    again at a finer candidate scale."""
+    from .twins import find_twins, join_fragments
+
+    pairs, widths, n_ending = find_twins(seg.labels, flat, return_widths=True)
+    wanted = opts.ridge_sigma_px is None and opts.contrast == "boundaries"
+    if wanted and widths.size >= 5 and n_ending >= 1:
+        limit = float(np.median(widths)) / opts.twin_scale_to_width
+        finer = [s for s in opts.ridge_sigmas_px if s <= limit]
+        if seg.ridge_sigma_px > limit and finer and max(finer) < seg.ridge_sigma_px:
+            fine = replace(_segment_at_scale(flat, opts, max(finer)), twin_rescaled=True)
+            fine_pairs, _, fine_ending = find_twins(fine.labels, flat, return_widths=True)
+            if fine_ending >= 3:  # twinned after all: keep the finer map
+                seg, pairs = fine, fine_pairs
+    return replace(seg, twin_pairs=join_fragments(seg.labels, pairs))
 
 
 def _segment_at_scale(
@@ -586,7 +644,8 @@ def _segment_at_scale(
         from skimage.morphology import skeletonize
 
         support = ndi.binary_dilation(skeletonize(support), iterations=1)
-    labels, n_merged = _merge_unsupported(labels, support, opts.merge_support)
+    junction = int(np.ceil(sigma + 1.0)) if opts.contrast == "boundaries" else 0
+    labels, n_merged = _merge_unsupported(labels, support, opts.merge_support, junction)
     areas = np.bincount(labels.ravel())[1:]
     areas = areas[areas > 0]
     if opts.min_grain_area_px is not None:

@@ -29,6 +29,9 @@ class GrainTruth:
     labels: np.ndarray  # (M, N) int32, grains numbered 1..n
     seeds_px: np.ndarray  # (n, 2) seed positions (row, col) in pixels
     params: dict = field(default_factory=dict)
+    # With twins (sectio.synth.twins.add_twins): every twin band and parent part its own
+    # region, i.e. the truth counting twin boundaries; ``labels`` stays twin-free.
+    twin_labels: np.ndarray | None = None
 
     @property
     def n_grains(self) -> int:
@@ -236,6 +239,12 @@ def render_etched(
     else:
         shades = rng.uniform(shade_range[0], shade_range[1], labels.max() + 1)
     img = shades[labels]
+    if geometry.get("twins"):
+        from .twins import render_twins
+
+        img = render_twins(img, labels, geometry["twins"], boundary_width_px=boundary_width_px,
+                           boundary_depth=boundary_depth if contrast != "grains" else 0.0,
+                           bright=bright_boundaries)
     if contrast != "grains":
         d = geometry["boundary_distance_px"].astype(float)
         sigma = boundary_width_px / 2.3548
@@ -292,10 +301,24 @@ def synthetic_grains(
     rng=None,
     kind: str = "voronoi",
     stretch: float = 1.0,
+    twins: dict | bool | None = None,
+    structure: dict | None = None,
     **render_options,
 ) -> tuple[np.ndarray, GrainTruth]:
-    """Structure and rendering in one call: returns ``(image, truth)``."""
+    """Structure and rendering in one call: returns ``(image, truth)``.
+
+    ``twins``: True or keyword arguments of :func:`sectio.synth.twins.add_twins` to draw
+    annealing twins (``truth.twin_labels`` then holds the truth counting them);
+    ``structure``: further keyword arguments of :func:`grain_structure`.
+    """
     rng = np.random.default_rng(rng)
-    truth, geometry = grain_structure(shape, n_grains, kind=kind, stretch=stretch, rng=rng)
+    truth, geometry = grain_structure(
+        shape, n_grains, kind=kind, stretch=stretch, rng=rng, **(structure or {})
+    )
+    if twins:
+        from .twins import add_twins
+
+        truth, bands = add_twins(truth, rng=rng, **(twins if isinstance(twins, dict) else {}))
+        geometry = {**geometry, "twins": bands}
     image = render_etched(truth, geometry, rng=rng, **render_options)
     return image, truth
