@@ -270,7 +270,7 @@ class GrainField:
                 with_.mean_intercept_px * px if with_ else self.mean_intercept_um
             ),
             "twin_boundary_fraction": self.twin_boundary_fraction,
-            "twin_pair_count": int(len(seg.twin_pairs)),
+            "twin_pair_count": int(len(getattr(seg, "twin_pairs", ()))),
             "twinned": bool(self.twin_boundary_fraction > 0.02),
             "intercept_count": self.counts.total_crossings,
             "test_line_length_um": float(sum(self.counts.length_px)) * self.pixel_size_um,
@@ -376,7 +376,12 @@ def grain_field_from_labels(
     ``options.twins == "exclude"`` each twin joins its parent before counting.
     """
     regions = labels
-    pairs = segmentation.twin_pairs
+    found = segmentation.twin_pairs if segmentation is not None else ()
+    pairs = np.asarray(found, np.int64).reshape(-1, 2)
+    if len(pairs) and regions is not segmentation.labels:
+        # an edited map: keep the pairs whose two regions are still there
+        present = np.bincount(regions.ravel(), minlength=int(pairs.max()) + 1) > 0
+        pairs = pairs[present[pairs].all(axis=1) & (pairs.max(axis=1) <= regions.max())]
     grains = merge_twins(regions, pairs) if len(pairs) else regions
     labels = grains if options.twins == "exclude" else regions
     radius = options.circle_radius_fraction * min(labels.shape) / 2.0
