@@ -292,6 +292,7 @@ class GrainField:
             "astm_g_planimetric": self.astm_g_planimetric,
             "astm_g_circle": float(astm_g_from_intercept_um(self.circle_intercept_um)),
             "iso643_g_planimetric": float(iso643_g_from_grains_per_mm2(self.grains_per_mm2)),
+            **self._size_spread(a_um2, inner),
             "mean_grain_area_um2": float(a_um2[inner].mean()) if inner.any() else None,
             "mean_ecd_um": float(ecd[inner].mean()) if inner.any() else None,
             "subregion_intercepts_um": list(self.subregion_intercepts_um),
@@ -305,6 +306,21 @@ class GrainField:
                 "small_regions_absorbed": seg.n_small_removed,
                 "scale_lowered_for_twins": seg.twin_rescaled,
             },
+        }
+
+    @staticmethod
+    def _size_spread(a_um2: np.ndarray, inner: np.ndarray) -> dict:
+        """Duplex test on the grains not cut by the field edge (all grains if none) and
+        the largest grain (ASTM E930 ALA, from all grains: a cut grain is a lower bound)."""
+        from .stereology import duplex_grain_size, largest_grain_astm_g
+
+        dx = duplex_grain_size(a_um2[inner] if inner.sum() >= 20 else a_um2)
+        big = float(a_um2.max()) if a_um2.size else float("nan")
+        return {
+            "duplex": dx.duplex,
+            "duplex_test": dx.to_dict(),
+            "largest_grain_area_um2": big,
+            "astm_g_largest_grain_ala": largest_grain_astm_g(big),
         }
 
     def overlay(self, *, max_lines_per_direction: int = 12) -> np.ndarray:
@@ -467,6 +483,14 @@ def summarize_grains(fields: list[GrainField] | list[dict], *, target_pct: float
     ]
     out["astm_g_planimetric"] = float(astm_g_from_grains_per_mm2(s_n.mean))
     out["iso643_g_planimetric"] = float(iso643_g_from_grains_per_mm2(s_n.mean))
+    out["duplex_fields"] = int(sum(bool(d.get("duplex")) for d in dicts))
+    out["duplex"] = out["duplex_fields"] > 0
+    big = [d["largest_grain_area_um2"] for d in dicts if d.get("largest_grain_area_um2")]
+    if big:
+        from .stereology import largest_grain_astm_g
+
+        out["largest_grain_area_um2"] = float(max(big))
+        out["astm_g_largest_grain_ala"] = largest_grain_astm_g(max(big))
     out["twins"] = dicts[0].get("twins", "exclude")
     out["astm_g_uses"] = dicts[0].get("astm_g_uses", "mean intercept")
     for key in (

@@ -190,7 +190,7 @@ def print_table(dicts, summary, failed) -> None:
     click.echo(
         f"{'field':<28} {'l_bar um':>9} {'crossings':>9} {'grains':>7} "
         f"{'N_A /mm2':>9} {'G(int)':>7} {'G(plan)':>7} {'aniso':>6} {'twin %':>6} "
-        f"{'l_bar+twins':>11}"
+        f"{'l_bar+twins':>11} {'duplex':>6} {'G(ALA)':>6}"
     )
     for d in dicts:
         click.echo(
@@ -198,8 +198,14 @@ def print_table(dicts, summary, failed) -> None:
             f"{d['intercept_count']:9d} {d['grain_count']:7d} {d['grains_per_mm2']:9.4g} "
             f"{d['astm_g_intercept']:7.2f} {d['astm_g_planimetric']:7.2f} "
             f"{d['anisotropy_index']:6.2f} {100 * d.get('twin_boundary_fraction', 0.0):6.1f} "
-            f"{d.get('mean_intercept_with_twins_um', d['mean_intercept_um']):11.4g}"
+            f"{d.get('mean_intercept_with_twins_um', d['mean_intercept_um']):11.4g} "
+            f"{'yes' if d.get('duplex') else 'no':>6} {d.get('astm_g_largest_grain_ala', 0):6.1f}"
         )
+        if d.get("duplex"):
+            modes = d["duplex_test"]["modes"]
+            click.echo("    duplex: " + "; ".join(
+                f"{100 * m['area_fraction']:.0f} % of the area at G {m['astm_g_planimetric']:.1f}"
+                for m in modes))
     for fl in failed:
         click.echo(f"{Path(fl['image']).name[:28]:<28} failed: {fl['reason']}")
     if dicts:

@@ -110,6 +110,10 @@ def overlay_png_bytes(field) -> bytes:
         f"{d['astm_g_planimetric']:.1f}   {d['grain_count']} grains",
         f"G uses the {d['astm_g_uses']}; with twins {d['mean_intercept_with_twins_um']:.3g} um, "
         f"twin boundaries {100 * d['twin_boundary_fraction']:.0f} % of boundary length",
+        ("DUPLEX: " + "; ".join(f"{100 * m['area_fraction']:.0f} % at G "
+                                f"{m['astm_g_planimetric']:.1f}" for m in d["duplex_test"]["modes"])
+         + f"   largest grain ALA G {d['astm_g_largest_grain_ala']:.1f}") if d["duplex"] else
+        f"one grain size (not duplex)   largest grain ALA G {d['astm_g_largest_grain_ala']:.1f}",
         "amber: boundaries  green: twin boundaries  blue: test lines (subset)  magenta: crossings",
     ]
     return overlay_png(rgb, d["pixel_size_um"], caption)

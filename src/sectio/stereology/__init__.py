@@ -7,6 +7,7 @@ spacing, Schwartz–Saltykov unfolding. Field-to-field statistics (Student t, % 
 accuracy).
 """
 
+from ._duplex import DuplexResult, GrainMode, duplex_grain_size, largest_grain_astm_g
 from ._fieldstats import (
     FieldStats,
     field_statistics,
@@ -51,7 +52,9 @@ from ._sizes import SizeDistribution, lognormal_fit, size_distribution, weighted
 from ._unfolding import Unfolding, foil_volume_fraction, saltykov_matrix, unfold_sections
 
 __all__ = [
+    "DuplexResult",
     "FieldStats",
+    "GrainMode",
     "InterceptCount",
     "ParticleTable",
     "PlanimetricCount",
@@ -63,6 +66,7 @@ __all__ = [
     "circle_centres",
     "cyclic_crossings",
     "count_crossings",
+    "duplex_grain_size",
     "edge_and_corner_labels",
     "feret_diameters",
     "field_statistics",
@@ -73,6 +77,7 @@ __all__ = [
     "intercept_lengths_px",
     "intercept_um_from_astm_g",
     "iso643_g_from_grains_per_mm2",
+    "largest_grain_astm_g",
     "lognormal_fit",
     "mean_lineal_intercept",
     "measure_labels",
