@@ -18,15 +18,16 @@ from .segment import GrainSegmentation, GrainSegmentOptions, segment_grains
 from .segment.twins import merge_twins
 from .stereology import (
     InterceptCount,
+    area_um2,
     astm_g_from_grains_per_mm2,
     astm_g_from_intercept_um,
     count_crossings,
-    edge_and_corner_labels,
     field_statistics,
-    grain_areas_px,
+    grain_sizes,
     iso643_g_from_grains_per_mm2,
     planimetric_count,
     stats_to_dict,
+    subregion_intercepts_um,
 )
 from .units import parse_length_um
 
@@ -174,11 +175,11 @@ class GrainField:
 
     @property
     def mean_intercept_um(self) -> float:
-        return self.counts.mean_intercept_px * self.pixel_size_um
+        return self.counts.mean_intercept_um
 
     @property
     def circle_intercept_um(self) -> float:
-        return self.counts.circle_intercept_px * self.pixel_size_um
+        return self.counts.circle_intercept_um
 
     @property
     def astm_g_intercept(self) -> float:
@@ -194,7 +195,7 @@ class GrainField:
 
     @property
     def direction_intercepts_um(self) -> dict[str, float]:
-        v = self.counts.direction_intercepts_px * self.pixel_size_um
+        v = self.counts.direction_intercepts_um
         return {f"{a:g}": float(x) for a, x in zip(self.counts.angles_deg, v, strict=True)}
 
     @property
@@ -216,41 +217,25 @@ class GrainField:
 
     def grain_table(self) -> list[dict]:
         """One row per grain: area, equivalent circle diameter, centroid, edge contact."""
-        ids, areas_px = grain_areas_px(self.labels)
-        px = self.pixel_size_um
-        rows_idx, cols_idx = np.indices(self.labels.shape)
-        n = int(self.labels.max()) + 1
-        cnt = np.bincount(self.labels.ravel(), minlength=n).astype(float)
-        cy = np.bincount(self.labels.ravel(), weights=rows_idx.ravel(), minlength=n) / np.maximum(
-            cnt, 1
-        )
-        cx = np.bincount(self.labels.ravel(), weights=cols_idx.ravel(), minlength=n) / np.maximum(
-            cnt, 1
-        )
-        border, _ = edge_and_corner_labels(self.labels)
-        on_edge = np.zeros(n, bool)
-        on_edge[border] = True
-        area_um2 = areas_px * px * px
-        ecd = np.sqrt(4 * area_um2 / np.pi)
+        g = grain_sizes(self.labels, pixel_size_um=self.pixel_size_um)
         return [
             {
                 "image": self.micrograph.path,
-                "grain": int(g),
+                "grain": int(i),
                 "area_um2": float(a),
                 "ecd_um": float(e),
-                "centroid_x_um": float(cx[g] * px),
-                "centroid_y_um": float(cy[g] * px),
-                "touches_edge": bool(on_edge[g]),
+                "centroid_x_um": float(x),
+                "centroid_y_um": float(y),
+                "touches_edge": bool(t),
             }
-            for g, a, e in zip(ids, area_um2, ecd, strict=True)
+            for i, a, e, x, y, t in zip(g.ids, g.area_um2, g.ecd_um, g.centroid_x_um,
+                                        g.centroid_y_um, g.touches_edge, strict=True)
         ]
 
     def to_dict(self) -> dict:
-        ids, areas_px = grain_areas_px(self.labels)
-        border, _ = edge_and_corner_labels(self.labels)
-        inner = ~np.isin(ids, border)
-        a_um2 = areas_px * self.pixel_size_um**2
-        ecd = np.sqrt(4 * a_um2 / np.pi)
+        g = grain_sizes(self.labels, pixel_size_um=self.pixel_size_um)
+        inner = ~g.touches_edge
+        a_um2, ecd = g.area_um2, g.ecd_um
         seg = self.segmentation
         px = self.pixel_size_um
         with_, without = self.counts_with_twins, self.counts_without_twins
@@ -273,7 +258,7 @@ class GrainField:
             "twin_pair_count": int(len(getattr(seg, "twin_pairs", ()))),
             "twinned": bool(self.twin_boundary_fraction > 0.02),
             "intercept_count": self.counts.total_crossings,
-            "test_line_length_um": float(sum(self.counts.length_px)) * self.pixel_size_um,
+            "test_line_length_um": self.counts.line_length_um,
             "direction_intercepts_um": self.direction_intercepts_um,
             "direction_counts": {
                 f"{a:g}": int(c)
@@ -282,7 +267,7 @@ class GrainField:
             "anisotropy_index": self.anisotropy_index,
             "circle_intercept_um": self.circle_intercept_um,
             "circle_count": self.counts.circle_crossings,
-            "circle_line_length_um": self.counts.circle_length_px * self.pixel_size_um,
+            "circle_line_length_um": self.counts.circle_length_um,
             "grain_count": self.grain_count,
             "grains_inside": self.planimetric_inside,
             "grains_on_edge": self.planimetric_edge,
@@ -300,7 +285,7 @@ class GrainField:
                 "ridge_scale_px": seg.ridge_sigma_px,
                 "threshold_high": seg.threshold_high,
                 "threshold_low": seg.threshold_low,
-                "min_grain_area_um2": seg.min_grain_area_px * self.pixel_size_um**2,
+                "min_grain_area_um2": area_um2(seg.min_grain_area_px, self.pixel_size_um),
                 "scratches_removed": seg.n_scratches_removed,
                 "regions_merged": seg.n_merged,
                 "small_regions_absorbed": seg.n_small_removed,
@@ -328,20 +313,6 @@ class GrainField:
         from .report.grains import grain_overlay
 
         return grain_overlay(self, max_lines_per_direction=max_lines_per_direction)
-
-
-def _subregion_intercepts(labels, opts: GrainOptions, pixel_size_um: float) -> tuple[float, ...]:
-    n = opts.subregions
-    h, w = labels.shape
-    out = []
-    for i in range(n):
-        for j in range(n):
-            reg = (slice(i * h // n, (i + 1) * h // n), slice(j * w // n, (j + 1) * w // n))
-            c = count_crossings(
-                labels, angles_deg=opts.angles_deg, line_spacing_px=opts.line_spacing_px, region=reg
-            )
-            out.append(c.mean_intercept_px * pixel_size_um)
-    return tuple(out)
 
 
 def measure_grains(
@@ -406,6 +377,7 @@ def grain_field_from_labels(
         angles_deg=options.angles_deg,
         line_spacing_px=options.line_spacing_px,
         circle_radius_px=radius,
+        pixel_size_um=micrograph.pixel_size_um,
     )
     other = count_crossings(
         regions if options.twins == "exclude" else grains,
@@ -423,7 +395,9 @@ def grain_field_from_labels(
         planimetric_edge=pc.edge,
         planimetric_corner=pc.corner,
         grains_per_mm2=pc.grains_per_mm2(micrograph.pixel_size_um),
-        subregion_intercepts_um=_subregion_intercepts(labels, options, micrograph.pixel_size_um),
+        subregion_intercepts_um=subregion_intercepts_um(
+            labels, subregions=options.subregions, pixel_size_um=micrograph.pixel_size_um,
+            angles_deg=options.angles_deg, line_spacing_px=options.line_spacing_px),
         segmentation=segmentation,
         options=options,
         region_labels=regions,

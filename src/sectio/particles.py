@@ -34,13 +34,22 @@ from .stereology import (
     ParticleTable,
     SizeDistribution,
     Unfolding,
+    centre_spacing_um,
+    clark_evans_ratio,
+    field_area_um2,
     foil_volume_fraction,
     intercept_density,
+    intercepts_per_um,
+    mean_free_path_um,
+    mean_nn_distance_um,
+    mean_particle_intercept_um,
     measure_labels,
     nearest_neighbour_distances,
+    particle_subregions,
     point_count,
     size_distribution,
     unfold_sections,
+    weighted_mean,
 )
 from .stereology._size_classes import size_class_table
 
@@ -185,37 +194,6 @@ def _binomial_se(p: float, n: int) -> float | None:
     return math.sqrt(p * (1 - p) / n) if n > 0 else None
 
 
-def _wmean(x, w) -> float | None:
-    s = float(np.sum(w))
-    return float(np.sum(np.asarray(x) * w) / s) if s > 0 else None
-
-
-def _subregions(mask, table: ParticleTable, tiles: int, pixel_size_um: float) -> dict:
-    """Area fraction, particles per µm² and mean ECD in tiles × tiles sub-regions.
-
-    A particle belongs to the tile holding its centroid (a unique reference point, so
-    every particle is counted once); counts include particles cut by the field edge, whose
-    centroids are inside the field; the mean ECD uses whole particles, edge-weighted.
-    """
-    h, w = mask.shape
-    rows = np.linspace(0, h, tiles + 1)
-    cols = np.linspace(0, w, tiles + 1)
-    ti = np.clip(np.searchsorted(rows, table.centroid_row_px, side="right") - 1, 0, tiles - 1)
-    tj = np.clip(np.searchsorted(cols, table.centroid_col_px, side="right") - 1, 0, tiles - 1)
-    out = {"tiles": f"{tiles}x{tiles}", "area_fraction": [], "particles_per_um2": [],
-           "mean_ecd_um": []}
-    for i in range(tiles):
-        for j in range(tiles):
-            r0, r1, c0, c1 = int(rows[i]), int(rows[i + 1]), int(cols[j]), int(cols[j + 1])
-            out["area_fraction"].append(float(mask[r0:r1, c0:c1].mean()))
-            sel = (ti == i) & (tj == j)
-            out["particles_per_um2"].append(float(sel.sum() / ((r1 - r0) * (c1 - c0)
-                                                               * pixel_size_um**2)))
-            sel &= ~table.edge
-            out["mean_ecd_um"].append(_wmean(table.ecd_um[sel], table.weight[sel]))
-    return out
-
-
 def measure_particles(
     micrograph: Micrograph,
     *,
@@ -296,8 +274,7 @@ def particle_field_from_segmentation(
     """
     s = micrograph.pixel_size_um
     table = measure_labels(seg.labels, pixel_size_um=s)
-    h, w = seg.mask.shape
-    area_um2 = h * w * s * s
+    area_um2 = field_area_um2(seg.mask.shape, pixel_size_um=s)
     a_a = float(seg.mask.mean())
     p_p, hits, total = point_count(seg.mask, points_per_side=points_per_side, rng=seed)
     n_int, line_px = intercept_density(seg.mask)
@@ -305,7 +282,7 @@ def particle_field_from_segmentation(
         from scipy import ndimage as ndi
 
         valid = ~left_out
-        area_um2 = float(np.count_nonzero(valid)) * s * s
+        area_um2 = field_area_um2(seg.mask.shape, pixel_size_um=s, valid=valid)
         a_a = float(seg.mask[valid].mean()) if valid.any() else 0.0
         p_p, hits, total = point_count(seg.mask, points_per_side=points_per_side, rng=seed,
                                        valid=valid)
@@ -317,10 +294,10 @@ def particle_field_from_segmentation(
     whole = ~table.edge
     wts = table.weight[whole]
     n_a = float(wts.sum() / area_um2)
-    n_l = n_int / (line_px * s)
+    n_l = intercepts_per_um(n_int, line_px, pixel_size_um=s)
     nn, safe = nearest_neighbour_distances(table.centroid_row_px, table.centroid_col_px,
                                            seg.mask.shape)
-    mean_nn = float(nn[safe].mean() * s) if safe.any() else None
+    mean_nn = mean_nn_distance_um(nn, safe, pixel_size_um=s)
     unf = None
     v_v = a_a
     if whole.sum() >= 1:
@@ -343,18 +320,18 @@ def particle_field_from_segmentation(
         micrograph=micrograph, segmentation=seg, table=table, area_fraction=a_a,
         volume_fraction=float(v_v), point_fraction=p_p, point_hits=hits, point_total=total,
         particle_count=len(table), particles_counted=int(whole.sum()), particles_per_um2=n_a,
-        mean_ecd_um=_wmean(table.ecd_um[whole], wts),
-        mean_feret_max_um=_wmean(table.feret_max_um[whole], wts),
-        mean_aspect_ratio=_wmean(table.aspect_ratio[whole], wts),
-        intercepts_per_um=float(n_l),
-        mean_free_path_um=float((1 - a_a) / n_l) if n_l > 0 else None,
-        mean_intercept_um=float(a_a / n_l) if n_l > 0 else None,
+        mean_ecd_um=weighted_mean(table.ecd_um[whole], wts),
+        mean_feret_max_um=weighted_mean(table.feret_max_um[whole], wts),
+        mean_aspect_ratio=weighted_mean(table.aspect_ratio[whole], wts),
+        intercepts_per_um=n_l,
+        mean_free_path_um=mean_free_path_um(a_a, n_l),
+        mean_intercept_um=mean_particle_intercept_um(a_a, n_l),
         mean_nn_distance_um=mean_nn, nn_count=int(safe.sum()),
-        # Clark & Evans (1954): mean NN distance of a Poisson pattern is 0.5/√N_A.
-        clark_evans_ratio=(mean_nn / (0.5 / math.sqrt(n_a))) if mean_nn and n_a > 0 else None,
-        centre_spacing_um=float(n_a ** -0.5) if n_a > 0 else None,
+        clark_evans_ratio=clark_evans_ratio(mean_nn, n_a),
+        centre_spacing_um=centre_spacing_um(n_a),
         sizes=size_distribution(table.ecd_um[whole], wts), unfolding=unf,
-        subregions=_subregions(seg.mask, table, tiles, s), flags=tuple(flags), options=options,
+        subregions=particle_subregions(seg.mask, table, tiles, pixel_size_um=s),
+        flags=tuple(flags), options=options,
         suspect=tuple(suspect), area_fraction_edge_corrected=float(a_pv), notes=tuple(notes),
         size_classes=size_class_table(table.ecd_um, table.area_um2, table.edge, table.weight,
                                       field_area_um2=area_um2, floor_um=floor_um,

@@ -30,7 +30,7 @@ from typing import Any
 import numpy as np
 
 from .errors import CalibrationError, InputError, OptionError
-from .stereology import intercept_lengths_px
+from .stereology import intercept_lengths_um
 
 __all__ = [
     "GRAIN_CSV_COLUMNS",
@@ -232,10 +232,10 @@ def measure_field(kind: str, micrograph, options, *, chords: bool = False,
     else:
         result = live.to_dict(**extra)
     if kind == "grains":
-        s = live.pixel_size_um
         rows = live.grain_table()
-        chord_um = tuple(v * s for v in intercept_lengths_px(
-            live.labels, spacing_px=options.line_spacing_px)) if chords else None
+        chord_um = tuple(intercept_lengths_um(
+            live.labels, spacing_px=options.line_spacing_px,
+            pixel_size_um=live.pixel_size_um)) if chords else None
     else:
         rows = result.pop("particles")
         chord_um = None

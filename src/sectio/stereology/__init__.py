@@ -30,7 +30,9 @@ from ._intercepts import (
     count_crossings,
     cyclic_crossings,
     intercept_lengths_px,
+    intercept_lengths_um,
     mean_lineal_intercept,
+    subregion_intercepts_um,
 )
 from ._particle_summary import subregion_statistics, summarize_particle_fields
 from ._particles import (
@@ -43,23 +45,48 @@ from ._particles import (
     point_count,
 )
 from ._planimetric import (
+    GrainSizes,
     PlanimetricCount,
+    area_um2,
     edge_and_corner_labels,
     grain_areas_px,
+    grain_sizes,
     planimetric_count,
 )
 from ._sizes import SizeDistribution, lognormal_fit, size_distribution, weighted_quantile
+from ._spacing import (
+    centre_spacing_um,
+    clark_evans_ratio,
+    field_area_um2,
+    intercepts_per_um,
+    mean_free_path_um,
+    mean_nn_distance_um,
+    mean_particle_intercept_um,
+    particle_subregions,
+    weighted_mean,
+)
 from ._unfolding import Unfolding, foil_volume_fraction, saltykov_matrix, unfold_sections
 
 __all__ = [
-    "DuplexResult",
+    "centre_spacing_um",
+    "clark_evans_ratio",
+    "field_area_um2",
+    "intercepts_per_um",
+    "mean_free_path_um",
+    "mean_nn_distance_um",
+    "mean_particle_intercept_um",
+    "particle_subregions",
+    "weighted_mean",
     "FieldStats",
+    "GrainSizes",
+    "DuplexResult",
     "GrainMode",
     "InterceptCount",
     "ParticleTable",
     "PlanimetricCount",
     "SizeDistribution",
     "Unfolding",
+    "area_um2",
     "astm_g_from_count_at_magnification",
     "astm_g_from_grains_per_mm2",
     "astm_g_from_intercept_um",
@@ -72,9 +99,11 @@ __all__ = [
     "field_statistics",
     "foil_volume_fraction",
     "grain_areas_px",
+    "grain_sizes",
     "grains_per_mm2_from_astm_g",
     "intercept_density",
     "intercept_lengths_px",
+    "intercept_lengths_um",
     "intercept_um_from_astm_g",
     "iso643_g_from_grains_per_mm2",
     "largest_grain_astm_g",
@@ -90,6 +119,7 @@ __all__ = [
     "split_unit",
     "stat_key",
     "stats_to_dict",
+    "subregion_intercepts_um",
     "subregion_statistics",
     "summarize_particle_fields",
     "t_critical",

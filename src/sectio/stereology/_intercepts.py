@@ -25,13 +25,43 @@ import numpy as np
 
 @dataclass(frozen=True)
 class InterceptCount:
-    """Boundary crossings and test-line length, per direction (pixels)."""
+    """Boundary crossings and test-line length, per direction.
+
+    Lengths are counted in pixels (``*_px``); the ``*_um`` properties give them in
+    micrometres with the pixel size the count was made with (:func:`count_crossings`).
+    """
 
     angles_deg: tuple[float, ...]
     crossings: tuple[int, ...]
     length_px: tuple[float, ...]
     circle_crossings: int = 0
     circle_length_px: float = 0.0
+    pixel_size_um: float = 1.0
+
+    @property
+    def mean_intercept_um(self) -> float:
+        """Mean lineal intercept ℓ̄ over the straight lines, µm."""
+        return self.mean_intercept_px * self.pixel_size_um
+
+    @property
+    def circle_intercept_um(self) -> float:
+        """Mean lineal intercept on the circular test lines, µm."""
+        return self.circle_intercept_px * self.pixel_size_um
+
+    @property
+    def direction_intercepts_um(self) -> np.ndarray:
+        """Mean intercept per direction (order of ``angles_deg``), µm."""
+        return self.direction_intercepts_px * self.pixel_size_um
+
+    @property
+    def line_length_um(self) -> float:
+        """Total length of the straight test lines, µm."""
+        return float(sum(self.length_px)) * self.pixel_size_um
+
+    @property
+    def circle_length_um(self) -> float:
+        """Total length of the circular test lines, µm."""
+        return self.circle_length_px * self.pixel_size_um
 
     @property
     def p_l_per_px(self) -> np.ndarray:
@@ -93,6 +123,7 @@ def count_crossings(
     line_spacing_px: int = 1,
     circle_radius_px: float | None = None,
     region: tuple[slice, slice] | None = None,
+    pixel_size_um: float = 1.0,
 ) -> InterceptCount:
     """Count label changes along systematic test lines.
 
@@ -109,6 +140,8 @@ def count_crossings(
         2.2·radius. ``None`` or 0 skips circles.
     region : (slice, slice), optional
         Restrict the count to a sub-rectangle (for sub-region statistics).
+    pixel_size_um : float
+        Pixel size; the ``*_um`` values of the result use it (default 1: pixel units).
 
     Returns
     -------
@@ -140,8 +173,31 @@ def count_crossings(
     if circle_radius_px:
         cc, cl = _circle_crossings(lab, float(circle_radius_px))
     return InterceptCount(
-        tuple(float(a) for a in angles_deg), tuple(crossings), tuple(lengths), cc, cl
+        tuple(float(a) for a in angles_deg), tuple(crossings), tuple(lengths), cc, cl,
+        float(pixel_size_um),
     )
+
+
+def subregion_intercepts_um(
+    labels: np.ndarray,
+    *,
+    subregions: int,
+    pixel_size_um: float,
+    angles_deg=(0, 45, 90, 135),
+    line_spacing_px: int = 1,
+) -> tuple[float, ...]:
+    """Mean lineal intercept (µm) of each of ``subregions`` × ``subregions`` equal
+    rectangles of the field, row by row (the spread of a single field's estimate)."""
+    n = subregions
+    h, w = labels.shape
+    out = []
+    for i in range(n):
+        for j in range(n):
+            reg = (slice(i * h // n, (i + 1) * h // n), slice(j * w // n, (j + 1) * w // n))
+            c = count_crossings(labels, angles_deg=angles_deg, line_spacing_px=line_spacing_px,
+                                region=reg, pixel_size_um=pixel_size_um)
+            out.append(c.mean_intercept_um)
+    return tuple(out)
 
 
 def circle_centres(shape, radius_px: float) -> list[tuple[float, float]]:
@@ -218,7 +274,7 @@ def mean_lineal_intercept(labels: np.ndarray, *, pixel_size_um: float, **kwargs)
     >>> round(mean_lineal_intercept(lab, pixel_size_um=0.5, angles_deg=(0,)), 3)
     10.0
     """
-    return count_crossings(labels, **kwargs).mean_intercept_px * pixel_size_um
+    return count_crossings(labels, pixel_size_um=pixel_size_um, **kwargs).mean_intercept_um
 
 
 def intercept_lengths_px(labels, *, spacing_px: int) -> list[float]:
@@ -237,3 +293,8 @@ def intercept_lengths_px(labels, *, spacing_px: int) -> list[float]:
             if change.size >= 2:
                 out.append(np.diff(change))
     return [float(v) for v in np.concatenate(out)] if out else []
+
+
+def intercept_lengths_um(labels, *, spacing_px: int, pixel_size_um: float) -> list[float]:
+    """:func:`intercept_lengths_px` in micrometres."""
+    return [v * pixel_size_um for v in intercept_lengths_px(labels, spacing_px=spacing_px)]
