@@ -3,7 +3,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test bench clean samples
+.PHONY: demo test bench clean samples lint
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -17,6 +17,10 @@ demo: $(STAMP)
 
 test: $(STAMP)
 	$(BIN)/python -m pytest
+
+lint: $(STAMP)
+	$(BIN)/ruff check src tests benchmarks
+	$(BIN)/mypy
 
 samples: $(STAMP)
 	$(BIN)/python sample_images/make_samples.py

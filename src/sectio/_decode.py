@@ -97,11 +97,11 @@ def parse_bytes(text: str | int | float, *, what: str = "--max-image-memory") ->
         value, factor = float(text), 1.0
     else:
         m = _SIZE.fullmatch(str(text))
-        factor = _UNITS.get(m.group(2).lower()) if m else None
-        if m is None or factor is None:
+        got = _UNITS.get(m.group(2).lower()) if m else None
+        if m is None or got is None:
             raise OptionError(f"{what} {str(text)[:40]!r} is not a memory size; give e.g. "
                               "4GiB, 800MB or a number of bytes.")
-        value = float(m.group(1))
+        value, factor = float(m.group(1)), got
     n = value * factor
     if not (math.isfinite(n) and 2**20 <= n <= 2**50):
         raise OptionError(f"{what} {str(text)[:40]!r} is outside the allowed range "
@@ -268,7 +268,7 @@ def _read_tiff(path: str, notes: list[str], budget: int, tags: Callable | None):
                 raise ImageReadError(f"{path}: the first page of the TIFF has no decodable "
                                      "image data; re-export it.")
             header = _tiff_header(path, page)
-            photometric = int(page.photometric)
+            photometric = int(page.photometric)  # type: ignore[union-attr]  # a page, not a frame
             if np.dtype(page.dtype).kind == "c":
                 raise ImageReadError(f"{path} holds complex values (e.g. a Fourier "
                                      "transform), not a micrograph; export the real image or "
@@ -294,7 +294,8 @@ def _read_tiff(path: str, notes: list[str], budget: int, tags: Callable | None):
                     arr, photometric, axes = _read_pillow(
                         path, notes, budget, formats=("TIFF",), grey=True), _MINISBLACK, "YX"
             size, source = tags(tif, page) if tags else (None, "")
-            colormap = page.colormap if photometric == _PALETTE else None
+            colormap = (page.colormap  # type: ignore[union-attr]  # a page, not a frame
+                        if photometric == _PALETTE else None)
     except InputError:
         raise
     except MemoryError:

@@ -127,4 +127,5 @@ if __name__ == "__main__":  # pragma: no cover
 
 
 def console_main() -> None:  # pragma: no cover - thin wrapper for the console script
+    """Run the ``sectio`` console script and exit with its status."""
     sys.exit(main())

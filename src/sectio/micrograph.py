@@ -98,7 +98,7 @@ def from_array(
 
 
 def _finish(grey, pixel_size_um, source, path, crop_bottom, notes, calibration) -> Micrograph:
-    original_shape = tuple(int(v) for v in grey.shape)
+    original_shape = (int(grey.shape[0]), int(grey.shape[1]))
     crop_bottom = int(crop_bottom or 0)
     if crop_bottom < 0 or (crop_bottom > 0 and crop_bottom >= grey.shape[0] - 16):
         raise OptionError(
@@ -206,7 +206,7 @@ def _calibrated(grey, path, notes, sources, **options) -> Micrograph:
     from .calibration import calibrate_image
 
     cal = calibrate_image(grey, path=path, file_sources=sources, **options)
-    original_shape = tuple(int(v) for v in grey.shape)
+    original_shape = (int(grey.shape[0]), int(grey.shape[1]))
     mg = _finish(grey[cal.crop_top_px:], cal.pixel_size_um, cal.source, path,
                  cal.crop_bottom_px, [*notes, *cal.notes], cal.details)
     return replace(mg, crop_top_px=cal.crop_top_px, original_shape=original_shape)

@@ -304,10 +304,10 @@ def particle_field_from_segmentation(
         unf = unfold_sections(table.ecd_um[whole], area_um2=area_um2, weights=wts,
                               n_classes=n_classes, min_diameter_um=floor_um,
                               foil_thickness_um=foil_thickness_um or 0.0)
-        if foil_thickness_um and unf.number_per_um3 > 0:
+        m2, m3 = unf.moment_um(2), unf.moment_um(3)
+        if foil_thickness_um and unf.number_per_um3 > 0 and m2 is not None and m3 is not None:
             v_v = foil_volume_fraction(a_a, foil_thickness_um=foil_thickness_um,
-                                       mean_d2_um2=unf.moment_um(2),
-                                       mean_d3_um3=unf.moment_um(3))
+                                       mean_d2_um2=m2, mean_d3_um3=m3)
     flags, suspect, notes = _field_flags(seg, table, a_a, whole,
                                          seg.options.get("phase_requested", phase), area_um2)
     img_bright = seg.flattened if seg.phase == "bright" else 1.0 - seg.flattened

@@ -109,7 +109,7 @@ class FieldRecord:
     def rejected(self) -> bool:
         """True when the field was rejected by hand (review edits)."""
         e = self.result.get("edits")
-        return bool(e) and e.get("status") == "rejected"
+        return isinstance(e, dict) and e.get("status") == "rejected"
 
     @property
     def flags(self) -> tuple[str, ...]:
@@ -201,6 +201,7 @@ def measure_field(kind: str, micrograph, options, *, chords: bool = False,
     -------
     MeasuredField
     """
+    live: Any  # GrainField or ParticleField
     if kind == "grains":
         from .grains import GrainOptions, make_options, measure_grains
 
@@ -264,7 +265,9 @@ def measure_images(kind: str, images: Iterable, options: Mapping, *, calibration
     from .report import atomic_write_bytes
     from .review.runs import source_entry
 
-    records, used, used_edits = [], set(), set()
+    records: list[FieldRecord] = []
+    used: set[str] = set()
+    used_edits: set[str] = set()
     images = list(images)
     calibration_failures = 0
     for path in (progress(images) if progress else images):
@@ -281,6 +284,7 @@ def measure_images(kind: str, images: Iterable, options: Mapping, *, calibration
                 on_skip(os.fspath(path), exc)
             continue
         name = overlay_name(os.fspath(path), used)
+        assert measured.image_sha256 is not None and measured.edit_file is not None
         atomic_write_bytes(out / name, measured.overlay_png())
         source = source_entry(kind, image_sha=measured.image_sha256, calibration=dict(calibration),
                               options=dict(options), edit_file=measured.edit_file)

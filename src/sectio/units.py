@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 import re
+from typing import cast
 
 from .errors import OptionError
 
@@ -116,13 +117,14 @@ def parse_stress_mpa(text: str | float, *, what: str = "stress") -> float:
     if isinstance(text, (int, float)) and not isinstance(text, bool):
         value, factor = _finite_number(text, what, "310MPa or 45ksi"), 1.0
     else:
-        value, unit = _split(text, what, "310MPa or 45ksi")
-        factor = 1.0 if unit is None else _STRESS_TO_MPA.get(unit.strip().lower())
-        if factor is None:
+        value, unit = _split(cast(str, text), what, "310MPa or 45ksi")
+        got = 1.0 if unit is None else _STRESS_TO_MPA.get(unit.strip().lower())
+        if got is None:
             raise OptionError(
                 f"Unknown stress unit {unit!r} in {what} {_shown(text)}; use MPa, GPa, psi or "
                 "ksi."
             )
+        factor = got
     mpa = value * factor
     if not abs(mpa) <= STRESS_LIMIT_MPA:
         raise OptionError(f"{what} {_shown(text)} is outside the allowed range -1000 GPa to "

@@ -18,6 +18,7 @@ refused: no light or electron micrograph of a metal section has such pixels.
 from __future__ import annotations
 
 import warnings
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 
 from ..errors import CalibrationError, CalibrationWarning, OptionError
@@ -68,7 +69,7 @@ def resolve_pixel_size(
     typed_text: str | None = None,
     objective: dict | None = None,
     bar: dict | None = None,
-    file_sources: list[FileSize] = (),
+    file_sources: Sequence[FileSize] = (),
 ) -> Resolved:
     """Choose the pixel size by the order of the module docstring and compare the rest.
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -34,7 +35,7 @@ def calibrate_image(
     grey: np.ndarray,
     *,
     path: str,
-    file_sources: list[FileSize] = (),
+    file_sources: Sequence[FileSize] = (),
     pixel_size=None,
     objective: str | None = None,
     calibration_file=None,

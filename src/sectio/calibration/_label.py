@@ -97,7 +97,7 @@ def classify(frac: np.ndarray) -> tuple[str | None, float, float]:
     h, w = frac.shape
     aspect = w / h
     score = cells @ _cell(frac) - 0.35 * np.abs(np.log(aspects / aspect))
-    best = {}
+    best: dict = {}
     for c, s in zip(classes, score, strict=True):
         if s > best.get(c, -9):
             best[c] = s
@@ -239,7 +239,8 @@ def read_label(frac: np.ndarray, ink: np.ndarray, bar_box, *, path: str) -> tupl
                                "from; give --scale-bar with the length (e.g. 20um).")
     readings = []
     for run in runs:
-        pieces, text = [], ""
+        pieces: list = []
+        text: str | None = ""
         for g in run:
             read = _read_glyph(g)
             if read is None:
@@ -263,6 +264,7 @@ def read_label(frac: np.ndarray, ink: np.ndarray, bar_box, *, path: str) -> tupl
         raise CalibrationError(f"{path}: the scale bar's label reads {text!r} but its letters "
                                "do not sit as text does; give --scale-bar with the length.")
     m = _LABEL.match(text)
+    assert m is not None  # the label was chosen by this pattern
     value = float(m.group(1))
     unit = m.group(2)
     shown = f"{m.group(1)} {'µm' if unit == 'um' else unit}"

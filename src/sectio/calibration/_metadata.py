@@ -130,7 +130,7 @@ def _metaseries(tif, notes) -> list[FileSize]:
     w = _positive(plane.get("spatial-calibration-x"))
     h = _positive(plane.get("spatial-calibration-y")) or w
     u = unit_um(plane.get("spatial-calibration-units", ""))
-    if w and u and plane.get("spatial-calibration-state", True):
+    if w and h and u and plane.get("spatial-calibration-state", True):
         return [FileSize("MetaSeries spatial calibration", w * u, h * u)]
     return []
 

@@ -111,11 +111,12 @@ def _first_period(sig: np.ndarray) -> float | None:
                            & (seg[1:-1] >= 0.5 * top)) + 1
     k = lag0 + int(local[0] if local.size else np.argmax(seg))
     # parabolic refinement of the peak
+    peak = float(k)
     if 0 < k < n - 1:
         a, b, c = acf[k - 1], acf[k], acf[k + 1]
         den = a - 2 * b + c
-        k = k + (0.5 * (a - c) / den if den else 0.0)
-    return float(k)
+        peak = k + (0.5 * (a - c) / den if den else 0.0)
+    return float(peak)
 
 
 def measure_ruling(image, *, path: str = "<array>") -> RulingMeasurement:

@@ -187,6 +187,7 @@ def grains_command(
 
 
 def print_table(dicts, summary, failed) -> None:
+    """Print the per-field table and the specimen summary of a grains document."""
     click.echo(
         f"{'field':<28} {'l_bar um':>9} {'crossings':>9} {'grains':>7} "
         f"{'N_A /mm2':>9} {'G(int)':>7} {'G(plan)':>7} {'aniso':>6} {'twin %':>6} "

@@ -162,8 +162,9 @@ def strength_figure(strength: dict, *, title: str = ""):
                  height=0.6)
         ax2.set_yticks(range(len(shares)), names, fontsize=7)
         ax2.invert_yaxis()
-        for i, (_, v) in enumerate(shares):
-            ax2.text(100 * v, i, f" {100 * v:.0f} %", va="center", fontsize=7, color=INK)
+        for i, (_, share) in enumerate(shares):
+            ax2.text(100 * share, i, f" {100 * share:.0f} %", va="center", fontsize=7,
+                     color=INK)
         ax2.set_xlim(0, 115)
     ax2.set_xlabel("share of the variance of the total (%)", fontsize=8)
     ax2.set_title("Sources of uncertainty", fontsize=9, color=INK)

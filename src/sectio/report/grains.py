@@ -120,4 +120,5 @@ def overlay_png_bytes(field) -> bytes:
 
 
 def write_overlay(field, path) -> Path:
+    """Write :func:`overlay_png_bytes` of a grain field to ``path`` atomically."""
     return atomic_write_bytes(path, overlay_png_bytes(field))

@@ -64,6 +64,7 @@ def fmt(v, spec: str = ".3g", unit: str = "") -> str:
 
 
 def fmt_ci(ci, spec: str = ".3g", unit: str = "") -> str:
+    """Display an interval ``[low, high]``; "no interval" when an end is missing."""
     if not ci or ci[0] is None or ci[1] is None:
         return "no interval"
     return f"[{format(ci[0], spec)}, {format(ci[1], spec)}]{(' ' + unit) if unit else ''}"
@@ -71,6 +72,8 @@ def fmt_ci(ci, spec: str = ".3g", unit: str = "") -> str:
 
 @dataclass
 class SpecimenData:
+    """What the report shows of one specimen (documents, overlays, histogram data)."""
+
     entry: dict
     grains: dict | None = None
     particles: dict | None = None
@@ -84,6 +87,8 @@ class SpecimenData:
 
 @dataclass
 class ReportData:
+    """The study document and the report data of every specimen."""
+
     study: dict
     specimens: list[SpecimenData]
 
@@ -179,7 +184,7 @@ def overlay_jpeg(path: Path, *, max_px: int = 720) -> bytes | None:
         return None
     if max(im.size) > max_px:
         s = max_px / max(im.size)
-        im = im.resize((round(im.width * s), round(im.height * s)), Image.LANCZOS)
+        im = im.resize((round(im.width * s), round(im.height * s)), Image.Resampling.LANCZOS)
     buf = io.BytesIO()
     im.save(buf, format="JPEG", quality=85, optimize=True)
     return buf.getvalue()

@@ -43,6 +43,7 @@ class EditFileError(InputError, ValueError):
 
 
 def image_sha256(path: str | os.PathLike) -> str:
+    """sha256 hex digest of an image file's bytes."""
     h = hashlib.sha256()
     with open(path, "rb") as fh:
         for block in iter(lambda: fh.read(1 << 20), b""):
@@ -51,6 +52,7 @@ def image_sha256(path: str | os.PathLike) -> str:
 
 
 def bytes_sha256(data: bytes) -> str:
+    """sha256 hex digest of ``data``."""
     return hashlib.sha256(data).hexdigest()
 
 
@@ -66,6 +68,7 @@ def edit_file_name(image: str, kind: str, used: set[str] | None = None) -> str:
 
 
 def new_edit_doc(*, kind: str, image: str, image_sha: str, shape_px, options: dict) -> dict:
+    """An empty edit document for one field (no edits yet)."""
     return {"schema": SCHEMA, "kind": kind, "image": image, "image_sha256": image_sha,
             "shape_px": [int(shape_px[0]), int(shape_px[1])], "options": options,
             "edits": [], "redo": [], "status": None, "reason": "", "by": "", "updated": ""}
@@ -117,6 +120,7 @@ def read_edit_file(path: str | os.PathLike, *, image_sha: str | None = None) -> 
 
 
 def write_edit_file(path: str | os.PathLike, doc: dict) -> None:
+    """Write an edit document atomically."""
     from ..report import write_json
 
     write_json(Path(path), doc)

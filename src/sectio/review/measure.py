@@ -9,6 +9,7 @@ map with the same stereology as the automatic result. This is what ``sectio grai
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import Any
 
 import numpy as np
 
@@ -20,7 +21,7 @@ from .editfile import edits_entry
 class EditedField:
     """A measured field (GrainField or ParticleField) and what the edits did to it."""
 
-    field: object
+    field: Any  # GrainField or ParticleField
     edited: EditedLabels | None
     edit_doc: dict | None
 

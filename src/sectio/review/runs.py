@@ -46,8 +46,9 @@ def field_dict(edited: EditedField, name: str, **kwargs) -> dict:
 
 
 def is_rejected(d: dict) -> bool:
+    """True when a field's JSON entry says it was rejected by hand."""
     e = d.get("edits")
-    return bool(e) and e.get("status") == "rejected"
+    return isinstance(e, dict) and e.get("status") == "rejected"
 
 
 def split_rejected(dicts: list[dict]) -> tuple[list[dict], list[dict]]:

@@ -20,6 +20,7 @@ import time
 import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -56,6 +57,8 @@ class Group:
 
 @dataclass
 class FieldState:
+    """One field of a review session: where it comes from and its current edits."""
+
     id: int
     group: Group
     stored: dict  # the field's entry in the result document
@@ -63,11 +66,13 @@ class FieldState:
     source: dict
     edit_path: Path
     lock: threading.Lock = field(default_factory=threading.Lock)
-    micrograph: object = None
-    base_field: object = None
-    base_labels: np.ndarray | None = None
-    edit_doc: dict | None = None
-    current: EditedField | None = None
+    # Set when the field is first opened (``ready``): Micrograph, GrainField or
+    # ParticleField, label map, edit document, EditedField.
+    micrograph: Any = None
+    base_field: Any = None
+    base_labels: Any = None
+    edit_doc: Any = None
+    current: Any = None
     version: int = 0
     grey_png: bytes | None = None
 
@@ -361,7 +366,7 @@ def _particle_summary(dicts: list[dict]) -> dict:
     """Area fraction and mean ECD over the fields, the same statistics as
     :func:`sectio.particles.summarize_particles` (Student t over fields; sub-regions of a
     single field), from the fields' JSON entries."""
-    from ..stereology import field_statistics, stats_to_dict, subregion_statistics
+    from ..stereology import FieldStats, field_statistics, stats_to_dict, subregion_statistics
 
     out: dict = {"n_fields": len(dicts)}
     if not dicts:
@@ -369,6 +374,7 @@ def _particle_summary(dicts: list[dict]) -> dict:
     out["basis"] = "fields" if len(dicts) >= 2 else "sub-regions of one field"
     for q in ("area_fraction", "mean_ecd_um"):
         vals = [d.get(q) for d in dicts if d.get(q) is not None]
+        st: FieldStats | None
         if len(dicts) >= 2 and len(vals) >= 2:
             st = field_statistics(vals, basis="fields")
         elif len(dicts) == 1:
@@ -394,6 +400,7 @@ def _brief_field(kind: str, d: dict) -> dict:
 
 
 def _brief_summary(kind: str, s: dict) -> dict:
+    keys: tuple[str, ...]
     if kind == "grains":
         keys = ("n_fields", "ci_basis", "mean_intercept_um", "mean_intercept_ci95_um",
                 "relative_accuracy_pct", "astm_g", "astm_g_ci95")

@@ -85,6 +85,8 @@ class GrainSegmentOptions:
 
 @dataclass(frozen=True)
 class GrainSegmentation:
+    """A grain label map and the levels and counts of the segmentation that made it."""
+
     labels: np.ndarray  # (M, N) int32, grains 1..n, no gaps
     boundary_mask: np.ndarray  # detected boundary pixels (before watershed)
     strength: np.ndarray  # boundary strength image

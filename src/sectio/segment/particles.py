@@ -308,6 +308,7 @@ def segment_particles(
         t_auto, matrix, particle, noise = half_contrast_threshold(flat)
         # features clearly on the other side of the matrix level (a wrong --phase shows)
         opposite = float(np.mean(flat < matrix - 6.0 * noise))
+    t: float | None
     if threshold is not None:
         t = 1.0 - threshold if phase == "dark" else float(threshold)
         method_txt = "manual"

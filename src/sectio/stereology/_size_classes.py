@@ -110,7 +110,7 @@ def size_class_table(ecd_um, area_um2_each, edge, weights, *, field_area_um2: fl
     sc = size_classes(ecd[whole], np.asarray(weights, float)[whole])
     if sc is None:
         return {"detected": False, "method": "log-normal mixture, BIC and Ashman's D"}
-    out = {"detected": True, "method": "log-normal mixture, BIC and Ashman's D",
+    out: dict = {"detected": True, "method": "log-normal mixture, BIC and Ashman's D",
            "cut_ecd_um": sc.cut_um, "ashman_d": sc.ashman_d, "bic_gain": sc.bic_gain,
            "classes": []}
     for name, sel in (("fine", ecd < sc.cut_um), ("coarse", ecd >= sc.cut_um)):

@@ -424,7 +424,7 @@ _MISSING_TEXT = {
 def _terms(mean_intercept, particles, opt) -> tuple[list[str], list[str]]:
     """Terms the estimate includes and the usual ones it lacks (said in the output)."""
     included = ["sigma0"]
-    missing = []
+    missing: list[str] = []
     (included if mean_intercept is not None else missing).append("grain_boundary")
     (included if particles is not None else missing).append("particle")
     if opt.dislocation_density_per_m2 is not None:

@@ -172,10 +172,12 @@ def draw_inputs(
         samples[item.name] = values
         truncated[item.name] = n_bad / draws
     if joint_inputs:
+        assert corr is not None
         z = _correlated_scores(corr, draws, rng)
         block = np.column_stack([_values(it, z[:, j]) for j, it in enumerate(joint_inputs)])
         check = [j for j, it in enumerate(joint_inputs) if it.positive and not it.lognormal]
-        bad = (block[:, check] <= 0).any(axis=1) if check else np.zeros(draws, bool)
+        bad = np.asarray((block[:, check] <= 0).any(axis=1) if check
+                         else np.zeros(draws, bool))
         n_bad = int(bad.sum())
         for _ in range(_MAX_REDRAW_ROUNDS):
             if not bad.any():
@@ -184,7 +186,7 @@ def draw_inputs(
             block[bad] = np.column_stack(
                 [_values(it, z[:, j]) for j, it in enumerate(joint_inputs)]
             )
-            bad = (block[:, check] <= 0).any(axis=1) if check else bad & False
+            bad = np.asarray((block[:, check] <= 0).any(axis=1) if check else bad & False)
         if bad.any():
             raise _too_wide(joint_inputs[check[0]])
         for j, it in enumerate(joint_inputs):
@@ -268,11 +270,11 @@ def propagate(
     for item in inputs:
         if item.scale <= 0:
             continue
-        one = dict(central)
+        one: dict = dict(central)
         one[item.name] = samples[item.name]
-        t = np.broadcast_to(np.asarray(model(one)["total"], float), (draws,))
-        t = t[np.isfinite(t)]
-        variances[item.name] = float(np.var(t)) if t.size > 1 else 0.0
+        tot = np.broadcast_to(np.asarray(model(one)["total"], float), (draws,))
+        tot = tot[np.isfinite(tot)]
+        variances[item.name] = float(np.var(tot)) if tot.size > 1 else 0.0
     var_total = float(np.nanvar(total))
     # Inputs the model does not depend on give round-off variance only; count them as zero.
     variances = {k: (v if v > 1e-12 * var_total else 0.0) for k, v in variances.items()}

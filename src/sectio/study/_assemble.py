@@ -80,7 +80,7 @@ def _strength(study: Study, spec: Specimen, docs: dict):
     return doc, None
 
 
-def _ci(summary: dict, key: str):
+def _ci(summary: dict | None, key: str):
     return summary.get(key) if summary else None
 
 
@@ -141,11 +141,11 @@ def _fits(pts: list[dict], unit: str, notes: list[str]) -> dict:
     c = [p for p in pts if p["mean_sphere_diameter_um"] is not None]
     if len({p["value"] for p in c}) >= 3:
         se = [p["mean_sphere_diameter_se_um"] for p in c]
-        fit = fit_lsw([p["value"] for p in c],
+        lsw = fit_lsw([p["value"] for p in c],
                       [500.0 * p["mean_sphere_diameter_um"] for p in c],
                       radius_se_nm=[500.0 * s for s in se] if all(se) else None,
                       time_unit=unit)
-        res["coarsening"] = fit.to_dict()
+        res["coarsening"] = lsw.to_dict()
         res["coarsening"]["radius"] = ("mean sphere radius from the Schwartz–Saltykov "
                                        "unfolding (half the mean sphere diameter)")
     elif c:

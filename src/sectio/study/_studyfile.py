@@ -34,6 +34,7 @@ import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 from .._checks import check_number
 from ..errors import InputError, StudyFileError
@@ -342,7 +343,7 @@ def _calibration(rep, key, table: dict, folder: Path, default_file: str | None) 
     from ..calibration import lookup_objective
     from ..units import parse_length_um
 
-    cal = {"pixel_size": None, "scale_bar": None, "crop_bottom": 0}
+    cal: dict[str, Any] = {"pixel_size": None, "scale_bar": None, "crop_bottom": 0}
     for k, v in table.items():
         if k in ("pixel_size", "scale_bar") and not (k == "scale_bar" and v == "auto"):
             try:
@@ -477,11 +478,13 @@ def _check_series(rep: _Reporter, specimens: list[Specimen]) -> None:
         if s.series is None or s.trial is None:
             continue
         f = first.setdefault(s.series, s)
-        if (f.trial.name, f.trial.unit) != (s.trial.name, s.trial.unit):
+        ft, st = f.trial, s.trial
+        assert ft is not None  # only specimens with a trial are in ``first``
+        if (ft.name, ft.unit) != (st.name, st.unit):
             raise rep.error(("specimens", s.name, "trial"),
                             f"series {s.series!r} mixes trial variables: "
-                            f"{f.trial.name} [{f.trial.unit}] in {f.name} and "
-                            f"{s.trial.name} [{s.trial.unit}] here; use one variable and unit "
+                            f"{ft.name} [{ft.unit}] in {f.name} and "
+                            f"{st.name} [{st.unit}] here; use one variable and unit "
                             "per series (or set 'series' to split them).")
 
 

@@ -18,6 +18,7 @@ import tempfile
 import warnings
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from .. import __version__
 
@@ -82,7 +83,7 @@ def _measure(task: FieldTask, path: str) -> tuple[dict, bytes]:
               scale_bar=cal.get("scale_bar"), objective=cal.get("objective"),
               calibration_file=cal.get("calibration_file"),
               keep_strip=bool(cal.get("keep_strip", False)))
-    options = task.options
+    options: Any = task.options
     if task.kind == "grains":
         from ..grains import make_options
 
