@@ -457,8 +457,9 @@ def summarize_grains(fields: list[GrainField] | list[dict], *, target_pct: float
     ]
     out["astm_g_planimetric"] = float(astm_g_from_grains_per_mm2(s_n.mean))
     out["iso643_g_planimetric"] = float(iso643_g_from_grains_per_mm2(s_n.mean))
-    out["duplex_fields"] = int(sum(bool(d.get("duplex")) for d in dicts))
-    out["duplex"] = out["duplex_fields"] > 0
+    n_duplex = int(sum(bool(d.get("duplex")) for d in dicts))
+    out["duplex_fields"] = n_duplex
+    out["duplex"] = n_duplex > 0
     big = [d["largest_grain_area_um2"] for d in dicts if d.get("largest_grain_area_um2")]
     if big:
         from .stereology import largest_grain_astm_g

@@ -81,7 +81,7 @@ def grain_overlay(field, *, max_lines_per_direction: int = 12) -> np.ndarray:
         cross[yy[ch], xx[ch]] = True
     rgb[lines_mask] = 0.45 * rgb[lines_mask] + 0.55 * np.array(LINE_RGB, np.float32)
     regions = getattr(field, "region_labels", None)
-    pairs = getattr(field.segmentation, "twin_pairs", ())
+    pairs = np.asarray(getattr(field.segmentation, "twin_pairs", ()), np.int64).reshape(-1, 2)
     if regions is not None and len(pairs):
         from ..segment.twins import twin_boundary_mask
 

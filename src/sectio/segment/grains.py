@@ -441,7 +441,7 @@ def _absorb_small(labels, min_area_px):
 def _any_small(counts, min_area_px) -> bool:
     small = (counts < min_area_px) & (counts > 0)
     small[0] = False
-    return bool(small.any()) and np.count_nonzero(counts[1:] > 0) >= 2
+    return bool(small.any()) and bool(np.count_nonzero(counts[1:] > 0) >= 2)
 
 
 def _absorb_lut(counts, uk, n, contacts, min_area_px):

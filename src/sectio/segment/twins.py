@@ -72,8 +72,8 @@ def _moments(labels: np.ndarray):
     """Per label: area, centroid, orientation (radians) and √(major/minor) eigenvalue."""
     n = int(labels.max()) + 1
     flat = labels.ravel()
-    rr, cc = np.indices(labels.shape, dtype=np.float32)
-    rr, cc = rr.ravel(), cc.ravel()
+    grid = np.indices(labels.shape, dtype=np.float32)
+    rr, cc = grid[0].ravel(), grid[1].ravel()
     area = np.bincount(flat, minlength=n).astype(float)
     a = np.maximum(area, 1)
     my = np.bincount(flat, rr, n) / a
@@ -190,7 +190,7 @@ def find_twins(
         # Too few lamellae end inside their grain for a twinned structure: keep only
         # those, not the crossing bands (a band between two grains of one shade is then
         # more likely an ordinary grain).
-        keep = np.isin(p, np.asarray(ending, np.int32)).any(axis=1)
+        keep = np.asarray(np.isin(p, np.asarray(ending, np.int32)).any(axis=1), bool)
         p = p[keep]
     return (p, np.asarray(widths, float), len(ending)) if return_widths else p
 

@@ -52,7 +52,8 @@ def tiff_shape(path: str) -> tuple[int, int] | None:
 def should_tile(path, max_pixels: int | None = DEFAULT_TILE_PIXELS) -> bool:
     """True for a TIFF with more pixels than ``max_pixels`` (None or 0: never)."""
     shape = tiff_shape(str(path))
-    return bool(max_pixels) and shape is not None and shape[0] * shape[1] > max_pixels
+    return (max_pixels is not None and max_pixels > 0 and shape is not None
+            and shape[0] * shape[1] > max_pixels)
 
 
 class _GreyRows:
@@ -66,9 +67,12 @@ class _GreyRows:
         with tifffile.TiffFile(self.path) as tif:
             page = tif.pages[0]
             self.axes = str(page.axes)
-            self.photometric = int(page.photometric)
-            self.colormap = page.colormap if self.photometric == 3 else None
-            self.full_shape = tiff_shape(self.path)
+            self.photometric = int(page.photometric)  # type: ignore[union-attr]
+            self.colormap = page.colormap if self.photometric == 3 else None  # type: ignore[union-attr]
+        shape = tiff_shape(self.path)
+        if shape is None:
+            raise OptionError(f"{path} could not be read as a TIFF; check the file.")
+        self.full_shape: tuple[int, int] = shape
         self.crop_bottom = int(crop_bottom or 0)
         if self.crop_bottom < 0 or self.crop_bottom >= self.full_shape[0] - 16:
             raise OptionError(f"--crop-bottom {crop_bottom} does not fit {path} "
@@ -237,7 +241,7 @@ def measure_grains_tiled(path, options=None, *, pixel_size=None, crop_bottom: in
     on_edge = np.isin(ids, border)
     return MosaicGrainField(
         path=path, pixel_size_um=px, pixel_size_source=source, shape=(h, w),
-        original_shape=tuple(src.full_shape), crop_bottom_px=src.crop_bottom,
+        original_shape=src.full_shape, crop_bottom_px=src.crop_bottom,
         counts=r["counts"],
         subregion_intercepts_um=tuple(c.mean_intercept_px * px for c in r["subregion_counts"]),
         grain_ids=ids, areas_px=npx[ids].astype(float),

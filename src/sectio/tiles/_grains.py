@@ -37,6 +37,7 @@ import os
 import shutil
 import tempfile
 from dataclasses import dataclass, field, replace
+from typing import Any
 
 import numpy as np
 from scipy import ndimage as ndi
@@ -69,7 +70,7 @@ class TileOptions:
 class _Ctx:
     """Everything a band task needs (small and picklable: file paths and a few numbers)."""
 
-    src: object  # sectio.tiles._GreyRows: .grey(r0, r1), .path
+    src: Any  # sectio.tiles._GreyRows: .grey(r0, r1), .path
     shape: tuple[int, int]
     band_rows: int
     margin: int
@@ -104,6 +105,7 @@ def _img(ctx: _Ctx, r0: int, r1: int) -> np.ndarray:
 
 def _flat_raw(ctx: _Ctx, r0: int, r1: int) -> np.ndarray:
     r0, r1 = max(0, r0), min(ctx.shape[0], r1)
+    assert ctx.bg_small is not None  # set by step 2 before any band is flattened
     bg = sg.upsample_rows(ctx.bg_small, ctx.shape, r0, r1)
     return _img(ctx, r0, r1) / np.maximum(bg, 1e-3)
 

@@ -108,7 +108,7 @@ class DiskArray:
         out = np.empty((r1 - r0, self.shape[1]), np.dtype(self.dtype))
         with open(self.path, "rb") as f:
             f.seek(r0 * self._row_bytes)
-            f.readinto(out.view(np.uint8))
+            f.readinto(out.view(np.uint8))  # type: ignore[arg-type]  # an ndarray is a buffer
         return out
 
     def write(self, r0: int, rows: np.ndarray) -> None:
