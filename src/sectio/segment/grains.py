@@ -358,13 +358,14 @@ def _pair_table(labels: np.ndarray, values: np.ndarray):
     return uk, n, np.bincount(inv), np.bincount(inv, weights=v)
 
 
-def _two_label_pixels(labels: np.ndarray, radius: int) -> np.ndarray:
+def _two_label_pixels(labels: np.ndarray, radius: int, n_labels: int | None = None) -> np.ndarray:
     """Pixels whose (2·radius+1)² window holds at most two labels (away from junctions
     and from other boundaries). Two orders of the labels are checked by their window
-    minimum and maximum; a third label hides from both only by chance."""
+    minimum and maximum; a third label hides from both only by chance. ``n_labels``
+    (default: the map's largest label + 1) fixes the second order for a band of a map."""
     size = 2 * radius + 1
     out = np.ones(labels.shape, bool)
-    n = int(labels.max()) + 1
+    n = int(labels.max()) + 1 if n_labels is None else int(n_labels)
     perm = np.random.default_rng(0).permutation(n).astype(np.int32)
     for lab in (labels, perm[labels]):
         lo = ndi.minimum_filter(lab, size=size)
@@ -389,11 +390,21 @@ def _merge_unsupported(labels, on_boundary: np.ndarray, min_support: float,
         inner = _two_label_pixels(labels, junction_px)
         _, _, _, n_inner = _pair_table(labels, inner.astype(np.float32))
         _, _, _, sup_inner = _pair_table(labels, (inner & on_boundary).astype(np.float32))
-        use = n_inner >= 2
-        supported = np.where(use, sup_inner, supported)
-        total = np.where(use, n_inner, total)
+        total, supported = judged_away_from_junctions(total, supported, n_inner, sup_inner)
     lut, n_merged = _merge_lut(uk, n, total, supported, min_support)
     return (labels, 0) if lut is None else (lut[labels], n_merged)
+
+
+def judged_away_from_junctions(total, supported, n_inner, sup_inner):
+    """(contacts, supported contacts) of each pair, on its inner pixels where it has two
+    or more (the whole image and the tiled path share this rule)."""
+    use = n_inner >= 2
+    return np.where(use, n_inner, total), np.where(use, sup_inner, supported)
+
+
+def junction_radius_px(sigma: float, opts) -> int:
+    """How far from a third region a dividing line's pixels must lie to judge it."""
+    return int(np.ceil(sigma + 1.0)) if opts.contrast == "boundaries" else 0
 
 
 def _merge_lut(uk, n, total, supported, min_support: float):
@@ -646,7 +657,7 @@ def _segment_at_scale(
         from skimage.morphology import skeletonize
 
         support = ndi.binary_dilation(skeletonize(support), iterations=1)
-    junction = int(np.ceil(sigma + 1.0)) if opts.contrast == "boundaries" else 0
+    junction = junction_radius_px(sigma, opts)
     labels, n_merged = _merge_unsupported(labels, support, opts.merge_support, junction)
     areas = np.bincount(labels.ravel())[1:]
     areas = areas[areas > 0]

@@ -167,12 +167,15 @@ class MosaicGrainField:
         ecd = np.sqrt(4 * a_um2 / np.pi)
         inner = ~self.on_edge
         circle_um = c.circle_intercept_px * px
+        from ..grains import GrainField  # the duplex test and largest grain, one rule
+
         return {
             "image": self.path, "pixel_size_um": px, "pixel_size_source": self.pixel_size_source,
             "crop_bottom_px": self.crop_bottom_px, "crop_top_px": 0, "shape_px": list(self.shape),
             "original_shape_px": list(self.original_shape), "notes": [
                 f"measured in {self.tiling['bands']} bands of {self.tiling['band_rows']} rows "
-                "(mosaic larger than the tile size); scratches not looked for"],
+                "(mosaic larger than the tile size); scratches and annealing twins not "
+                "looked for (every boundary counts as a grain boundary)"],
             "mean_intercept_um": self.mean_intercept_um,
             "intercept_count": c.total_crossings,
             "test_line_length_um": float(sum(c.length_px)) * px,
@@ -195,8 +198,17 @@ class MosaicGrainField:
             "mean_grain_area_um2": float(a_um2[inner].mean()) if inner.any() else None,
             "mean_ecd_um": float(ecd[inner].mean()) if inner.any() else None,
             "subregion_intercepts_um": list(self.subregion_intercepts_um),
-            "segmentation": dict(self.segmentation),
+            "segmentation": {**self.segmentation, "scale_lowered_for_twins": False},
             "tiling": dict(self.tiling),
+            # annealing twins are not looked for in bands: say so rather than report none
+            "twins": "not looked for in bands",
+            "astm_g_uses": "mean intercept, every boundary counted (twins not looked for)",
+            "mean_intercept_with_twins_um": self.mean_intercept_um,
+            "mean_intercept_without_twins_um": None,
+            "twin_boundary_fraction": None,
+            "twin_pair_count": None,
+            "twinned": None,
+            **GrainField._size_spread(a_um2, inner),
         }
 
 

@@ -269,7 +269,8 @@ def _pairs(lab: np.ndarray, values: np.ndarray, n_core: int):
             np.concatenate(vals).astype(float))
 
 
-def _t_pair_table(ctx: _Ctx, k: int, lut: np.ndarray, lo: float | None, nmax: int):
+def _t_pair_table(ctx: _Ctx, k: int, lut: np.ndarray, lo: float | None, nmax: int,
+                  junction: int = 0):
     a, b = ctx.band(k)
     wb = min(ctx.shape[0], b + 1)
     lab = lut[ctx.arrays["labels"].read(a, wb)]
@@ -282,7 +283,16 @@ def _t_pair_table(ctx: _Ctx, k: int, lut: np.ndarray, lo: float | None, nmax: in
     key = x * (nmax + 1) + y
     uk, inv = np.unique(key, return_inverse=True)
     counts = np.bincount(lab[: b - a].ravel(), minlength=nmax + 1)
-    return uk, np.bincount(inv), np.bincount(inv, weights=v), counts
+    if junction <= 0 or lo is None:
+        return uk, np.bincount(inv), np.bincount(inv, weights=v), counts
+    # pixels away from third regions, as segment.grains._merge_unsupported judges them
+    ja, jb = max(0, a - junction), min(ctx.shape[0], wb + junction)
+    wide = lut[ctx.arrays["labels"].read(ja, jb)]
+    inner = sg._two_label_pixels(wide, junction, n_labels=nmax + 1)[a - ja : wb - ja]
+    _, _, vi = _pairs(lab, inner.astype(np.float32), b - a)
+    _, _, vs = _pairs(lab, (inner & (values > 0)).astype(np.float32), b - a)
+    return (uk, np.bincount(inv), np.bincount(inv, weights=v), counts,
+            np.bincount(inv, weights=vi), np.bincount(inv, weights=vs))
 
 
 def _combine_pairs(parts, nmax: int):
@@ -291,6 +301,10 @@ def _combine_pairs(parts, nmax: int):
     total = np.bincount(inv, weights=np.concatenate([p[1] for p in parts]).astype(float))
     sup = np.bincount(inv, weights=np.concatenate([p[2] for p in parts]))
     counts = np.sum([p[3] for p in parts], axis=0)
+    if len(parts[0]) > 4:  # inner-pixel contacts and their support (junction-aware merge)
+        n_inner = np.bincount(inv, weights=np.concatenate([p[4] for p in parts]))
+        sup_inner = np.bincount(inv, weights=np.concatenate([p[5] for p in parts]))
+        total, sup = sg.judged_away_from_junctions(total, sup, n_inner, sup_inner)
     return uk, total.astype(np.int64), sup, counts
 
 
@@ -525,7 +539,9 @@ def _run(ctx: _Ctx, runner: _Runner, nb: int, opts, angles, spacing, radius, sub
     # 8. merge neighbours with unsupported dividing lines, absorb small regions
     ident = np.arange(n_markers + 1, dtype=np.int64)
     uk, total, sup, counts = _combine_pairs(
-        runner.map(_t_pair_table, ctx, _same(nb, ident, lo, n_markers)), n_markers)
+        runner.map(_t_pair_table, ctx,
+                   _same(nb, ident, lo, n_markers, sg.junction_radius_px(ctx.sigma, opts))),
+        n_markers)
     lut = ident
     n_merged = 0
     if n_markers >= 2:
