@@ -56,7 +56,9 @@ def bytes_sha256(data: bytes) -> str:
 
 def edit_file_name(image: str, kind: str, used: set[str] | None = None) -> str:
     """``<stem>_<kind>_edits.json``, made unique within one folder (``_2``, ``_3`` ...)."""
-    stem = Path(str(image).replace("\\", "/")).stem or "field"
+    from ..report._safe import safe_stem
+
+    stem = safe_stem(str(image))  # portable and short whatever the image is called
     name, i = f"{stem}_{kind}_edits.json", 2
     while used is not None and name in used:
         name, i = f"{stem}_{i}_{kind}_edits.json", i + 1
