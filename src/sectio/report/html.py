@@ -89,6 +89,7 @@ class ReportData:
     specimens: list[SpecimenData]
 
 
+@plain_text_figures
 def report_data(study_doc: dict, documents: Mapping[str, Mapping],
                 out_dir: str | os.PathLike) -> ReportData:
     """Collect what the report shows: the study document and the in-memory documents.
