@@ -30,6 +30,8 @@ bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_particles.py
 	$(BIN)/python benchmarks/bench_strength.py
 	$(BIN)/python benchmarks/bench_study.py
+	$(BIN)/python benchmarks/bench_fuzz.py
+	$(BIN)/python benchmarks/bench_kills.py
 
 clean:
 	rm -rf $(VENV) demo_out build *.egg-info src/*.egg-info

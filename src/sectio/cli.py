@@ -105,6 +105,9 @@ def main(argv=None) -> int:
     """Entry point of the console script; returns the exit status."""
     from .errors import InputError
 
+    for stream in (sys.stdout, sys.stderr):  # file names may hold undecodable bytes
+        if hasattr(stream, "reconfigure") and getattr(stream, "errors", "") == "strict":
+            stream.reconfigure(errors="backslashreplace")
     try:
         rv = cli.main(args=argv, prog_name="sectio", standalone_mode=False)
     except InputError as exc:

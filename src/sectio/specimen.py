@@ -62,12 +62,18 @@ SIZE_DISTRIBUTION_PNG = "size_distribution.png"
 
 
 def overlay_name(image: str, used: set[str], suffix: str = "_overlay") -> str:
-    """A unique overlay file name for a field: ``<stem><suffix>.png``, then ``<stem>_2...``."""
-    stem = Path(image).stem or "field"
+    """A unique overlay file name for a field: ``<stem><suffix>.png``, then ``<stem>_2...``.
+
+    The stem is made portable by :func:`sectio.report._safe.safe_stem` (any bytes, any
+    length); names are compared without case, as on case-insensitive file systems.
+    """
+    from .report._safe import safe_stem
+
+    stem = safe_stem(image)
     name, i = f"{stem}{suffix}.png", 2
-    while name in used:
+    while name.lower() in used:
         name, i = f"{stem}_{i}{suffix}.png", i + 1
-    used.add(name)
+    used.add(name.lower())
     return name
 
 
@@ -282,6 +288,14 @@ def measure_images(kind: str, images: Iterable, options: Mapping, *, calibration
                                      and (kind == "grains" or calibration.get("scale_bar") is None))
             if on_skip:
                 on_skip(os.fspath(path), exc)
+            continue
+        except Exception as exc:  # noqa: BLE001 - one field's fault never ends the run
+            from .report._safe import unexpected_failure
+
+            reason = unexpected_failure(path, exc)
+            records.append(FieldRecord.failed(kind, os.fspath(path), reason))
+            if on_skip:
+                on_skip(os.fspath(path), InputError(reason))
             continue
         name = overlay_name(os.fspath(path), used)
         assert measured.image_sha256 is not None and measured.edit_file is not None

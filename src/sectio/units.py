@@ -147,9 +147,13 @@ def parse_value_sd(
     """
     if text is None:
         return None
+    if len(str(text)) > 2 * MAX_QUANTITY_CHARS:
+        raise OptionError(f"{what} {_shown(text)} is {len(str(text))} characters long; write "
+                          "VALUE or VALUE+-SD, e.g. 50+-10.")
     parts = [p.strip() for p in str(text).replace("±", "+-").split("+-")]
     if len(parts) > 2 or not all(parts):
-        raise OptionError(f"Cannot read {what} {text!r}; write VALUE or VALUE+-SD, e.g. 50+-10.")
+        raise OptionError(f"Cannot read {what} {_shown(text)}; write VALUE or VALUE+-SD, e.g. "
+                          "50+-10.")
     if stress:
         unit = re.sub(r"^[\s\d.eE+-]+", "", parts[-1])
         if unit and not re.sub(r"^[\s\d.eE+-]+", "", parts[0]):
@@ -162,6 +166,9 @@ def parse_value_sd(
             raise OptionError(
                 f"Cannot read {what} {text!r}; write a number or VALUE+-SD, e.g. 1e14+-2e13."
             ) from None
+    if not all(math.isfinite(v) for v in values):
+        raise OptionError(f"{what} {_shown(text)} is not a finite number; write VALUE or "
+                          "VALUE+-SD, e.g. 1e14+-2e13.")
     if len(values) == 2 and values[1] < 0:
         raise OptionError(f"The uncertainty in {what} {text!r} must not be negative.")
     return (values[0], values[1] if len(values) == 2 else 0.0)

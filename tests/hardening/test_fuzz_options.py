@@ -278,3 +278,14 @@ def test_option_messages(cli_inputs, tmp_path, capsys):
 def test_input_errors_are_one_sentence_type():
     # every error above is an InputError: the CLI prints it and exits 2
     assert issubclass(OptionError, InputError) and issubclass(StudyFileError, InputError)
+
+
+@pytest.mark.parametrize("text", ["50+-nan", "nan", "inf+-1", "1e400+-1", "1" * 300])
+def test_value_sd_finite(text):
+    # found by benchmarks/bench_fuzz.py: --dislocation-density 50+-nan reached the
+    # Monte Carlo and ended in an IndexError
+    from sectio.units import parse_value_sd
+
+    for stress in (True, False):
+        with pytest.raises(OptionError, match=r"--x '"):
+            parse_value_sd(text, what="--x", stress=stress)

@@ -46,3 +46,4 @@ def max_image_memory_option(f):
         callback=_set_image_memory,
         help="Largest decoded image accepted, e.g. 4GiB [default: 1.5GiB of float pixels, "
              "or $SECTIO_MAX_IMAGE_MEMORY].")(f)
+

@@ -169,7 +169,9 @@ def grains_command(
         "twins": twins,
     }
     opts = make_options(**measure_kwargs)
-    out = Path(out_dir)
+    from ..report._safe import prepare_out_dir
+
+    out = prepare_out_dir(out_dir)
     calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
                    **calibration_options}
     records = measure_images("grains", images, measure_kwargs, calibration=calibration,

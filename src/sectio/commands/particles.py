@@ -71,7 +71,9 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, me
     min_size_um = parse_length_um(min_size, what="--min-size") if min_size else None
     foil_um = parse_length_um(foil_thickness, what="--foil-thickness") if foil_thickness \
         else None
-    out = Path(out_dir)
+    from ..report._safe import prepare_out_dir
+
+    out = prepare_out_dir(out_dir)
     calibration = {"pixel_size": pixel_size, "scale_bar": scale_bar, "crop_bottom": crop_bottom,
                    **calibration_options}
     measure = {"phase": phase, "threshold": threshold, "min_size_um": min_size_um,

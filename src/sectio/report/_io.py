@@ -18,12 +18,21 @@ from pathlib import Path
 
 import numpy as np
 
+from ._safe import display_text
+
 
 def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
     """Write ``data`` to ``path`` atomically (temp file + rename)."""
+    from ._safe import output_error
+
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        # the temp name stays short: a long result name must not fail for its temp file
+        fd, tmp = tempfile.mkstemp(prefix=f".{path.name[:40]}.", suffix=".tmp",
+                                   dir=path.parent)
+    except OSError as exc:
+        raise output_error(path, exc) from None
     try:
         os.chmod(tmp, 0o644)  # mkstemp makes 0600; results are ordinary readable files
         with os.fdopen(fd, "wb") as fh:
@@ -31,11 +40,13 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
             fh.flush()
             os.fsync(fh.fileno())
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         try:
             os.unlink(tmp)
         except OSError:
             pass
+        if isinstance(exc, OSError):
+            raise output_error(path, exc) from None
         raise
     return path
 
@@ -47,8 +58,10 @@ def atomic_write_text(path: str | os.PathLike, text: str) -> Path:
 
 def jsonable(obj):
     """``obj`` with numpy scalars/arrays, tuples and paths made JSON-ready; NaN/inf -> None."""
+    if isinstance(obj, str):
+        return display_text(obj)
     if isinstance(obj, dict):
-        return {str(k): jsonable(v) for k, v in obj.items()}
+        return {display_text(str(k)): jsonable(v) for k, v in obj.items()}
     if isinstance(obj, (list, tuple)):
         return [jsonable(v) for v in obj]
     if isinstance(obj, (np.floating, float)):
@@ -61,7 +74,7 @@ def jsonable(obj):
     if isinstance(obj, np.ndarray):
         return jsonable(obj.tolist())
     if isinstance(obj, Path):
-        return str(obj)
+        return display_text(str(obj))
     return obj
 
 

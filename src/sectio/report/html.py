@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ._io import atomic_write_text
+from ._safe import plain_text_figures
 
 __all__ = ["ReportData", "SpecimenData", "report_data", "render_html",
            "write_html_report", "fmt", "fmt_ci"]
@@ -93,6 +94,7 @@ class ReportData:
     specimens: list[SpecimenData]
 
 
+@plain_text_figures
 def report_data(study_doc: dict, documents: Mapping[str, Mapping],
                 out_dir: str | os.PathLike) -> ReportData:
     """Collect what the report shows: the study document and the in-memory documents.
@@ -448,6 +450,7 @@ def render_html(data: ReportData) -> str:
     return "\n".join(parts)
 
 
+@plain_text_figures
 def write_html_report(path: str | os.PathLike, data: ReportData) -> Path:
     """Render the study report (see :func:`report_data`) and write it atomically."""
     return atomic_write_text(path, render_html(data))

@@ -14,6 +14,7 @@ import os
 import numpy as np
 
 from ._io import atomic_write_bytes
+from ._safe import plain_text_figures
 
 __all__ = ["overlay_png_bytes", "write_size_distribution_png"]
 
@@ -35,6 +36,7 @@ def overlay_png_bytes(field) -> bytes:
     return overlay_png(field.overlay(), d["pixel_size_um"], caption)
 
 
+@plain_text_figures
 def write_size_distribution_png(path: str | os.PathLike, sizes, *, area_um2: float,
                                 n_fields: int, summary: dict) -> None:
     """Size-distribution figure of all fields of a specimen together.

@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from ._io import atomic_write_bytes
+from ._safe import plain_text_figures
 from .figures import (
     INK,
     intercept_histogram,
@@ -274,6 +275,7 @@ def _constants_page(name: str, st: dict):
     return fig
 
 
+@plain_text_figures
 def write_pdf_report(path: str | os.PathLike, data: ReportData) -> Path:
     """Write the PDF report (see :func:`sectio.report.html.report_data`) atomically (0644),
     every page numbered "page N of M"."""

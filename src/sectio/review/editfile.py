@@ -59,6 +59,10 @@ def bytes_sha256(data: bytes) -> str:
 def edit_file_name(image: str, kind: str, used: set[str] | None = None) -> str:
     """``<stem>_<kind>_edits.json``, made unique within one folder (``_2``, ``_3`` ...)."""
     stem = Path(str(image).replace("\\", "/")).stem or "field"
+    if len(os.fsencode(stem)) > 150:  # keep the edit file's name within NAME_MAX
+        from ..report._safe import safe_stem
+
+        stem = safe_stem(str(image))
     name, i = f"{stem}_{kind}_edits.json", 2
     while used is not None and name in used:
         name, i = f"{stem}_{i}_{kind}_edits.json", i + 1

@@ -34,7 +34,7 @@ def local_executor(tasks: Iterable[Callable[[], FieldTask]], *, workers: int) ->
     for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
         os.environ.setdefault(var, "1")
     pool = ProcessPoolExecutor(max_workers=workers, mp_context=mp.get_context("spawn"),
-                               initializer=init_worker)
+                               initializer=init_worker, initargs=(os.getpid(),))
     it = iter(tasks)
     pending: dict = {}
     try:

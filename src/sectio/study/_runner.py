@@ -21,6 +21,7 @@ from pathlib import Path
 
 from .. import __version__
 from ..report import atomic_write_bytes, to_json_text, write_json
+from ..report._safe import OutputError
 from ..specimen import write_result
 from ._assemble import STUDY_SCHEMA, specimen_documents, trend_points
 from ._studyfile import REPORT_KEYS, Study
@@ -64,6 +65,18 @@ def _task_options(study: Study, spec, kind: str) -> dict:
     return {**spec.particle_options, "seed": study.seed}
 
 
+def _read_image(path: Path, shown: str) -> bytes:
+    from ..errors import ImageReadError
+    from ..report._safe import display_text
+
+    try:
+        return path.read_bytes()
+    except OSError as exc:
+        raise ImageReadError(f"Cannot read the image {display_text(shown)} "
+                             f"({(exc.strerror or type(exc).__name__).lower()}); check the file "
+                             "and its permissions, then run the study again.") from None
+
+
 def plan_fields(study: Study) -> list[PlannedField]:
     """Every (specimen, kind, image) of the study with its content key, in study order."""
     plan = []
@@ -71,7 +84,7 @@ def plan_fields(study: Study) -> list[PlannedField]:
         for kind in spec.measure:
             opts = _task_options(study, spec, kind)
             for shown, path in zip(spec.images, spec.image_paths, strict=True):
-                data = path.read_bytes()
+                data = _read_image(path, shown)
                 plan.append(PlannedField(spec.name, kind, shown, path,
                                          field_key(data, kind, spec.calibration, opts)))
     return plan
@@ -117,12 +130,33 @@ def run_study(study: Study, out_dir: str | os.PathLike, *, workers: int | None =
     progress : callable(done, total), optional
         Called after each field that had to be computed.
     """
+    from ..report._safe import prepare_out_dir
+    from ._guard import clean_stale_temp, study_lock
+
+    out = prepare_out_dir(out_dir)
+    with study_lock(out):
+        clean_stale_temp(out)  # what a killed run left behind
+        return _run_locked(study, out, workers=workers, scheduler=scheduler,
+                           scheduler_timeout_s=scheduler_timeout_s, report=report,
+                           progress=progress)
+
+
+def _run_locked(study: Study, out: Path, *, workers, scheduler, scheduler_timeout_s, report,
+                progress) -> StudyRun:
     from ._executors import dask_executor, local_executor, serial_executor
+    from ._guard import TMP_NAME
 
     t0 = time.perf_counter()
-    out = Path(out_dir)
     fields_dir = out / "fields"
-    fields_dir.mkdir(parents=True, exist_ok=True)
+    try:
+        fields_dir.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        from ..report._safe import output_error
+
+        raise output_error(fields_dir / "x", exc) from None
+    # image copies of local workers live inside the output folder (cleaned at the next
+    # start if the run is killed); a Dask worker on another machine uses its own temp
+    tmp_dir = None if scheduler else str((out / TMP_NAME).resolve())
     plan = plan_fields(study)
     records: dict[str, dict] = {}
     transient: dict[str, dict] = {}
@@ -143,8 +177,9 @@ def run_study(study: Study, out_dir: str | os.PathLike, *, workers: int | None =
             spec = specs[pf.specimen]
 
             def make(pf=pf, spec=spec):
-                return FieldTask(pf.key, pf.kind, pf.image, pf.path.read_bytes(),
-                                 dict(spec.calibration), _task_options(study, spec, pf.kind))
+                return FieldTask(pf.key, pf.kind, pf.image, _read_image(pf.path, pf.image),
+                                 dict(spec.calibration), _task_options(study, spec, pf.kind),
+                                 tmp_dir=tmp_dir)
 
             yield make
 
@@ -179,7 +214,7 @@ def run_study(study: Study, out_dir: str | os.PathLike, *, workers: int | None =
     run.field_seconds = field_seconds
     write_json(out / "run_log.json", {
         "schema": "sectio/study-run@1", "sectio_version": __version__,
-        "study_file": str(study.path.resolve()), "fields_planned": len(plan),
+        "study_file": study.path.name, "fields_planned": len(plan),
         "fields_computed": computed, "fields_reused": reused,
         "executor": (f"dask {scheduler}" if scheduler else
                      f"local, {n_workers} worker(s)"),
@@ -211,7 +246,18 @@ def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = Tru
     docs, spec_entries, failed = {}, [], []
     for spec in study.specimens:
         recs = by_spec.get(spec.name, {})
-        d = specimen_documents(study, spec, recs)
+        try:
+            d = specimen_documents(study, spec, recs)
+        except OutputError:
+            raise
+        except Exception as exc:  # noqa: BLE001 - one specimen's fault never ends the study
+            reason = (f"the summaries of specimen {spec.name} could not be made "
+                      f"({type(exc).__name__}: {str(exc)[:200]}); its field records are kept "
+                      "in fields/ — please report this as a fault in sectio.")
+            failed.append({"specimen": spec.name, "kind": "specimen", "image": "",
+                           "reason": reason})
+            d = {"grains": None, "particles": None, "strength": None,
+                 "strength_error": reason, "warnings": []}
         docs[spec.name] = d
         sdir = out / spec.name
         files = {}
@@ -265,7 +311,29 @@ def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = Tru
         from ..report.html import report_data, write_html_report
         from ..report.pdf import write_pdf_report
 
-        data = report_data(doc, docs, out)
-        write_html_report(out / "report.html", data)
-        write_pdf_report(out / "report.pdf", data)
+        def report_failed(name: str, exc: Exception) -> None:
+            failed.append({"specimen": "", "kind": "report", "image": name,
+                           "reason": f"{name} could not be made ({type(exc).__name__}: "
+                                     f"{str(exc)[:200]}); study.json and the specimen files "
+                                     "are complete — please report this fault."})
+            doc["failed"] = failed
+            write_json(out / "study.json", doc)
+
+        try:
+            data = report_data(doc, docs, out)
+        except OutputError:
+            raise
+        except Exception as exc:  # noqa: BLE001 - the measured results are written
+            report_failed("report.html", exc)
+            data = None
+        for name, writer in (("report.html", write_html_report),
+                             ("report.pdf", write_pdf_report)):
+            if data is None:
+                break
+            try:
+                writer(out / name, data)
+            except OutputError:
+                raise
+            except Exception as exc:  # noqa: BLE001 - the measured results are written
+                report_failed(name, exc)
     return StudyRun(out, doc, 0, 0, failed)

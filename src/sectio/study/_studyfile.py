@@ -76,6 +76,8 @@ _STRENGTH_KEYS = {"grain_size_convention": str, "orowan_form": str, "spacing": s
                   "dislocation_density": (str, int, float, list), "taylor_alpha": (int, float),
                   "shearing_size_nm": (int, float), "allow_nanocrystalline": bool}
 _MEASURES = ("grains", "particles")
+#: Names in a study's output folder that a specimen folder must not take.
+RESERVED_NAMES = {"fields", "study.json", "run_log.json", "report.html", "report.pdf"}
 
 
 @dataclass(frozen=True)
@@ -248,10 +250,9 @@ def _expand_images(rep, key, patterns, folder: Path) -> tuple[list[str], list[Pa
             if p in paths:
                 continue
             paths.append(p)
-            try:
-                shown.append(p.relative_to(folder.resolve()).as_posix())
-            except ValueError:
-                shown.append(str(p))
+            # relative to the study folder even for ../ and absolute patterns: outputs never
+            # carry absolute paths
+            shown.append(Path(os.path.relpath(p, folder.resolve())).as_posix())
     return shown, paths
 
 
@@ -414,9 +415,12 @@ def parse_study(text: str, path: str | os.PathLike) -> Study:
     specimens = []
     for name, sd in specs_doc.items():
         key = ("specimens", name)
-        if not re.fullmatch(r"[A-Za-z0-9][A-Za-z0-9_.\-]*", name):
+        if not re.fullmatch(r"[A-Za-z0-9][A-Za-z0-9_.\-]{0,99}", name):
             raise rep.error(key, "specimen names may use letters, digits, '-', '_' and '.' "
-                                 "(they name output folders).")
+                                 "(up to 100 characters; they name output folders).")
+        if name.lower() in RESERVED_NAMES:
+            raise rep.error(key, f"{name!r} is the name of a study output; call the specimen "
+                                 "something else.")
         _check_table(rep, key, sd, _SPECIMEN_KEYS)
         if "images" not in sd:
             raise rep.error(key, "missing key 'images' (a list of file names or globs).")

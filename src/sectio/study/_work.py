@@ -35,6 +35,7 @@ class FieldTask:
     image_bytes: bytes
     calibration: dict
     options: dict  # make_options kwargs (grains) or measure_particles kwargs (particles)
+    tmp_dir: str | None = None  # where the image copy goes (the output folder's temp area)
 
 
 def canonical_json(obj) -> bytes:
@@ -107,8 +108,12 @@ def run_field(task: FieldTask) -> tuple[dict, bytes | None]:
 
     base = {"schema": RECORD_SCHEMA, "key": task.key, "kind": task.kind,
             "image": task.image_name, "sectio_version": __version__}
-    name = Path(task.image_name).name or "field.tif"
-    with tempfile.TemporaryDirectory(prefix="sectio-field-") as tmp:
+    # a short, safe name for the copy: any image name (bytes, length) works; messages and
+    # records get the image's own name back below
+    name = "field" + Path(task.image_name).suffix.lower()[:8]
+    if task.tmp_dir:
+        os.makedirs(task.tmp_dir, exist_ok=True)
+    with tempfile.TemporaryDirectory(prefix="field-", dir=task.tmp_dir or None) as tmp:
         path = os.path.join(tmp, name)
         with open(path, "wb") as fh:
             fh.write(task.image_bytes)
@@ -127,8 +132,12 @@ def run_field(task: FieldTask) -> tuple[dict, bytes | None]:
     return {**base, "status": "ok", "warnings": notes, **record}, png
 
 
-def init_worker() -> None:
-    """Worker start-up: one BLAS / OpenMP thread per process (the pool gives parallelism)."""
+def init_worker(parent_pid: int | None = None) -> None:
+    """Worker start-up: one BLAS / OpenMP thread per process (the pool gives parallelism);
+    the worker ends when the run's process ends, however it ends."""
+    from ._guard import die_with_parent
+
+    die_with_parent(parent_pid)
     for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
         os.environ.setdefault(var, "1")
     warnings.simplefilter("ignore")  # warnings are captured per field in run_field
