@@ -19,7 +19,7 @@ TOML = """\
 [study]
 title = "Review test"
 seed = 0
-draws = 500
+draws = 1000
 bootstrap = 20
 
 [specimens.G]
