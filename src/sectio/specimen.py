@@ -133,6 +133,8 @@ class FieldRecord:
         if self.intercepts_um is not None:
             out["intercepts_um"] = list(self.intercepts_um)
         out["rows"] = list(self.rows)
+        if self.source is not None:
+            out["source"] = self.source
         return out
 
     @classmethod
@@ -145,7 +147,8 @@ class FieldRecord:
         return cls(d["kind"], d["image"], result=d["result"],
                    measure_options=d.get("measure_options", {}), rows=tuple(d.get("rows", ())),
                    intercepts_um=None if chords is None else tuple(chords),
-                   warnings=tuple(d.get("warnings", ())), key=d.get("key"))
+                   warnings=tuple(d.get("warnings", ())), key=d.get("key"),
+                   source=d.get("source"))
 
     def csv_rows(self) -> list[dict]:
         """Rows of the CSV file, each naming the image first."""

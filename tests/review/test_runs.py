@@ -92,3 +92,12 @@ def test_edit_file_of_a_changed_image_is_refused(run, tmp_path, capsys):
     doc2 = json.loads((out2 / "grains.json").read_text())
     assert "made on another version of" in doc2["failed"][0]["reason"]
     assert len(doc2["fields"]) == 1
+
+
+def test_report_marks_corrected_fields():
+    from sectio.report.html import _edit_mark
+
+    assert _edit_mark({"edits": {"count": 3, "status": "reviewed", "by": "JS"}}) == \
+        " — corrected by hand: 3 edits, reviewed by JS"
+    assert _edit_mark({"edits": {"count": 1, "status": None}}) == " — corrected by hand: 1 edit"
+    assert _edit_mark({"edits": None}) == ""

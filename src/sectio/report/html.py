@@ -80,6 +80,7 @@ class SpecimenData:
     particles: dict | None = None
     strength: dict | None = None
     overlays: list = field(default_factory=list)  # (caption, png path, link, pixel size µm)
+    rejected: list = field(default_factory=list)  # fields rejected by hand, with reasons
     intercepts_um: list = field(default_factory=list)
     pixel_size_um: float | None = None  # of the grain fields (bins of the chord histogram)
     particle_ecd_um: list = field(default_factory=list)
@@ -120,8 +121,10 @@ def report_data(study_doc: dict, documents: Mapping[str, Mapping],
         sd.pixel_size_um = px.pop() if len(px) == 1 else None
         for kind, doc in (("grains", sd.grains), ("particles", sd.particles)):
             for f in (doc or {}).get("fields", []):
-                sd.overlays.append((f"{kind}: {f['image']}", out / e["name"] / f["overlay_png"],
+                sd.overlays.append((f"{kind}: {f['image']}{_edit_mark(f)}",
+                                    out / e["name"] / f["overlay_png"],
                                     f"{e['name']}/{f['overlay_png']}", f.get("pixel_size_um")))
+            sd.rejected.extend({"kind": kind, **r} for r in (doc or {}).get("rejected") or [])
         if grains is not None:
             sd.intercepts_um = grains.intercepts_um()
         if particles is not None:
@@ -129,6 +132,18 @@ def report_data(study_doc: dict, documents: Mapping[str, Mapping],
             sd.particle_ecd_um, sd.particle_weights = ecd.tolist(), weights.tolist()
         specs.append(sd)
     return ReportData(study_doc, specs)
+
+
+def _edit_mark(f: dict) -> str:
+    """" — corrected by hand: 3 edits (reviewed)" for a field with hand edits."""
+    e = f.get("edits") or {}
+    parts = []
+    if e.get("count"):
+        n = e["count"]
+        parts.append(f"corrected by hand: {n} edit{'s' if n != 1 else ''}")
+    if e.get("status") == "reviewed":
+        parts.append("reviewed" + (f" by {e['by']}" if e.get("by") else ""))
+    return (" — " + ", ".join(parts)) if parts else ""
 
 
 # ----------------------------------------------------------------------------- pieces
@@ -389,6 +404,11 @@ def _specimen_html(sd: SpecimenData) -> str:
         out.append("<div class=note><b>Fields not measured:</b><ul>" + "".join(
             f"<li>{_e(f['image'])} ({_e(f['kind'])}): {_e(f['reason'])}</li>"
             for f in e["failed"]) + "</ul></div>")
+    if sd.rejected:
+        out.append("<div class=note><b>Fields rejected by hand (left out of the statistics):"
+                   "</b><ul>" + "".join(
+                       f"<li>{_e(r['image'])} ({_e(r['kind'])}): {_e(r['reason'])}</li>"
+                       for r in sd.rejected) + "</ul></div>")
     if e.get("warnings"):
         out.append("<p class=muted>Notes: " + "; ".join(_e(w) for w in e["warnings"]) + "</p>")
     out.append("</section>")

@@ -208,7 +208,7 @@ class ReviewSession:
             return fs.stored
         d = fs.current.field.to_dict()
         add_edit_keys(d, fs.current.edited, fs.edit_doc, fs.edit_path.name)
-        for k in ("overlay_png", "source"):
+        for k in ("image", "overlay_png", "source"):  # the names the run gave
             if k in fs.stored:
                 d[k] = fs.stored[k]
         return d

@@ -39,13 +39,14 @@ def specimen_documents(study: Study, spec: Specimen, records: dict[str, list[dic
                 {"angles_deg": tuple(spec.grain_options["angles_deg"])}
                 if "angles_deg" in spec.grain_options else {})})
             out["grains"] = grains_document(recs, calibration=cal, options=opts, used=used,
-                                            suffix=overlay_suffix("grains", spec.measure))
+                                            suffix=overlay_suffix("grains", spec.measure),
+                                            edits=True)
         if "particles" in spec.measure:
             recs = [FieldRecord.from_dict(r) for r in records.get("particles", [])]
             out["particles"] = particles_document(
                 recs, calibration=cal, measure={**spec.particle_options, "seed": study.seed},
                 bootstrap=study.bootstrap, used=used,
-                suffix=overlay_suffix("particles", spec.measure))
+                suffix=overlay_suffix("particles", spec.measure), edits=True)
         caught_all.extend(str(w.message) for w in caught)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")

@@ -90,6 +90,42 @@ def plan_fields(study: Study) -> list[PlannedField]:
     return plan
 
 
+def _with_edit_files(plan: list[PlannedField], out: Path):
+    """Find each field's edit file in its specimen folder; its edits join the field's key.
+
+    Returns ``(plan, edits)`` with ``edits[(specimen, kind, image)] = (doc, file name)``.
+    An edit file made on another version of the image is refused with one sentence (the
+    field is recorded as failed with that sentence; the others go on).
+    """
+    import hashlib
+    from dataclasses import replace
+
+    from ..review.editfile import EditFileError, edit_file_name, image_sha256, read_edit_file
+    from ._work import canonical_json
+
+    used: dict[str, set[str]] = {}
+    edits, new_plan = {}, []
+    for pf in plan:
+        name = edit_file_name(pf.image, pf.kind, used.setdefault(pf.specimen, set()))
+        p = out / pf.specimen / name
+        try:
+            doc = read_edit_file(p, image_sha=image_sha256(pf.path)) if p.is_file() else None
+        except EditFileError as exc:  # this field fails; the study goes on
+            edits[(pf.specimen, pf.kind, pf.image)] = (None, name, str(exc))
+            h = hashlib.sha256(pf.key.encode() + b"\0refused\0" + str(exc).encode())
+            new_plan.append(replace(pf, key=h.hexdigest()))
+            continue
+        edits[(pf.specimen, pf.kind, pf.image)] = (doc, name, None)
+        if doc is not None:
+            h = hashlib.sha256(pf.key.encode() + canonical_json(doc) + name.encode())
+            pf = replace(pf, key=h.hexdigest())
+        else:
+            h = hashlib.sha256(pf.key.encode() + b"\0" + name.encode())
+            pf = replace(pf, key=h.hexdigest())
+        new_plan.append(pf)
+    return new_plan, edits
+
+
 def _load_record(folder: Path, key: str) -> dict | None:
     p = folder / f"{key}.json"
     try:
@@ -157,12 +193,18 @@ def _run_locked(study: Study, out: Path, *, workers, scheduler, scheduler_timeou
     # image copies of local workers live inside the output folder (cleaned at the next
     # start if the run is killed); a Dask worker on another machine uses its own temp
     tmp_dir = None if scheduler else str((out / TMP_NAME).resolve())
-    plan = plan_fields(study)
+    plan, edits = _with_edit_files(plan_fields(study), out)
     records: dict[str, dict] = {}
     transient: dict[str, dict] = {}
     todo: dict[str, PlannedField] = {}
     for pf in plan:
         if pf.key in records or pf.key in todo:
+            continue
+        refused = edits[(pf.specimen, pf.kind, pf.image)][2]
+        if refused:
+            records[pf.key] = {"schema": RECORD_SCHEMA, "key": pf.key, "kind": pf.kind,
+                               "image": pf.image, "sectio_version": __version__,
+                               "status": "failed", "reason": refused}
             continue
         rec = _load_record(fields_dir, pf.key)
         if rec is not None:
@@ -177,9 +219,10 @@ def _run_locked(study: Study, out: Path, *, workers, scheduler, scheduler_timeou
             spec = specs[pf.specimen]
 
             def make(pf=pf, spec=spec):
+                doc, name, _ = edits.get((pf.specimen, pf.kind, pf.image), (None, "", None))
                 return FieldTask(pf.key, pf.kind, pf.image, _read_image(pf.path, pf.image),
                                  dict(spec.calibration), _task_options(study, spec, pf.kind),
-                                 tmp_dir=tmp_dir)
+                                 tmp_dir=tmp_dir, edits=doc, edit_file=name)
 
             yield make
 

@@ -16,7 +16,7 @@ import json
 import os
 import tempfile
 import warnings
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -36,6 +36,8 @@ class FieldTask:
     calibration: dict
     options: dict  # make_options kwargs (grains) or measure_particles kwargs (particles)
     tmp_dir: str | None = None  # where the image copy goes (the output folder's temp area)
+    edits: dict | None = None  # the field's edit file (sectio.review.editfile), if any
+    edit_file: str = ""  # its name in the specimen's folder
 
 
 def canonical_json(obj) -> bytes:
@@ -92,8 +94,21 @@ def _measure(task: FieldTask, path: str) -> tuple[dict, bytes]:
         if "angles_deg" in opts:
             opts["angles_deg"] = tuple(opts["angles_deg"])
         options = make_options(**opts)
-    measured = measure_field(task.kind, mg, options, chords=True)
-    return jsonable(measured.record.payload()), measured.overlay_png()
+    # Hand edits: the edit file goes beside the image in the worker's folder, where
+    # measure_field looks for it (the study checked its image hash against these bytes).
+    folder = Path(path).parent
+    if task.edits is not None:
+        from ..review.editfile import edit_file_name, write_edit_file
+
+        write_edit_file(folder / edit_file_name(path, task.kind), task.edits)
+    measured = measure_field(task.kind, mg, options, chords=True, edit_folder=folder,
+                             image_bytes=task.image_bytes)
+    from ..review.runs import source_entry
+
+    record = replace(measured.record, source=source_entry(
+        task.kind, image_sha=measured.image_sha256, calibration=task.calibration,
+        options=task.options, edit_file=task.edit_file))
+    return jsonable(record.payload()), measured.overlay_png()
 
 
 def run_field(task: FieldTask) -> tuple[dict, bytes | None]:
