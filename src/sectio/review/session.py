@@ -130,9 +130,14 @@ class ReviewSession:
     def _study_folder(self) -> Path | None:
         log = self.root / "run_log.json"
         try:
-            return Path(json.loads(log.read_text(encoding="utf-8"))["study_file"]).parent
-        except (OSError, ValueError, KeyError, TypeError):
+            doc = json.loads(log.read_text(encoding="utf-8"))
+        except (OSError, ValueError):
             return None
+        folder = doc.get("study_folder") if isinstance(doc, dict) else None
+        if isinstance(folder, str):  # relative to the output folder
+            return (self.root / folder).resolve()
+        study_file = doc.get("study_file") if isinstance(doc, dict) else None
+        return Path(study_file).parent if isinstance(study_file, str) else None
 
     def _resolve_image(self, image: str, base: Path | None) -> Path:
         p = Path(image)

@@ -104,7 +104,8 @@ def _with_edit_files(plan: list[PlannedField], out: Path):
     from ._work import canonical_json
 
     used: dict[str, set[str]] = {}
-    edits, new_plan = {}, []
+    edits: dict[tuple[str, str, str], tuple[dict | None, str, str | None]] = {}
+    new_plan: list[PlannedField] = []
     for pf in plan:
         name = edit_file_name(pf.image, pf.kind, used.setdefault(pf.specimen, set()))
         p = out / pf.specimen / name
@@ -258,6 +259,8 @@ def _run_locked(study: Study, out: Path, *, workers, scheduler, scheduler_timeou
     write_json(out / "run_log.json", {
         "schema": "sectio/study-run@1", "sectio_version": __version__,
         "study_file": study.path.name, "fields_planned": len(plan),
+        # the study folder relative to this output folder (where images are looked up again)
+        "study_folder": os.path.relpath(Path(study.path).resolve().parent, out.resolve()),
         "fields_computed": computed, "fields_reused": reused,
         "executor": (f"dask {scheduler}" if scheduler else
                      f"local, {n_workers} worker(s)"),

@@ -106,7 +106,7 @@ def _measure(task: FieldTask, path: str) -> tuple[dict, bytes]:
     from ..review.runs import source_entry
 
     record = replace(measured.record, source=source_entry(
-        task.kind, image_sha=measured.image_sha256, calibration=task.calibration,
+        task.kind, image_sha=measured.image_sha256 or "", calibration=task.calibration,
         options=task.options, edit_file=task.edit_file))
     return jsonable(record.payload()), measured.overlay_png()
 
