@@ -25,16 +25,20 @@ from ..strength.choices import (
 from ..units import parse_value_sd
 
 
-def _read_summary(path: str, schema: str) -> dict:
-    p = Path(path)
+def _read_json_doc(path: str, maker: str):
+    """The parsed JSON of a result file; unreadable or broken files get one sentence."""
     try:
-        doc = json.loads(p.read_text(encoding="utf-8"))
+        return json.loads(Path(path).read_text(encoding="utf-8"))
     except OSError as exc:
         raise ResultFileError(f"Cannot read {path!r} ({exc.strerror}); check the path.") from None
     except json.JSONDecodeError as exc:
         raise ResultFileError(
-            f"{path!r} is not valid JSON (line {exc.lineno}); re-create it with sectio."
+            f"{path!r} is not valid JSON (line {exc.lineno}); re-create it with {maker}."
         ) from None
+
+
+def _read_summary(path: str, schema: str) -> dict:
+    doc = _read_json_doc(path, "sectio")
     if not isinstance(doc, dict) or doc.get("schema") != schema:
         found = doc.get("schema") if isinstance(doc, dict) else None
         raise ResultFileError(
@@ -253,15 +257,7 @@ def strength_command(
 
 
 def _read_fit_json(path: str) -> dict:
-    p = Path(path)
-    try:
-        doc = json.loads(p.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise ResultFileError(f"Cannot read {path!r} ({exc.strerror}); check the path.") from None
-    except json.JSONDecodeError as exc:
-        raise ResultFileError(
-            f"{path!r} is not valid JSON (line {exc.lineno}); re-create it with fit-hall-petch."
-        ) from None
+    doc = _read_json_doc(path, "fit-hall-petch")
     if not isinstance(doc, dict) or doc.get("schema") != "sectio/hall-petch-fit@1":
         raise ResultFileError(
             f"{path!r} is not a sectio/hall-petch-fit@1 document; pass the "
