@@ -37,15 +37,21 @@ __all__ = [
     "KINDS",
     "PARTICLE_CSV_COLUMNS",
     "SIZE_DISTRIBUTION_PNG",
+    "SUMMARY_DIGITS",
+    "field_summary_rows",
     "FieldRecord",
     "MeasuredField",
     "ResultDocument",
     "grains_document",
+    "image_name",
     "measure_field",
     "measure_images",
     "overlay_name",
     "overlay_suffix",
     "particles_document",
+    "specimen_summary_row",
+    "study_field_rows",
+    "study_specimen_row",
     "write_result",
 ]
 
@@ -58,6 +64,102 @@ PARTICLE_CSV_COLUMNS = ["image", "particle", "area_um2", "ecd_um", "feret_max_um
                         "feret_min_um", "aspect_ratio", "centroid_x_um", "centroid_y_um",
                         "cut_by_edge", "weight"]
 CSV_COLUMNS = {"grains": GRAIN_CSV_COLUMNS, "particles": PARTICLE_CSV_COLUMNS}
+#: Significant figures of the numbers in the CSV files: the summary files (per field, per
+#: specimen) carry 4 — more than the field-to-field spread of any quantity sectio reports
+#: supports —, the per-grain and per-particle files 6 (positions to well under a pixel on a
+#: 10 000-pixel field).
+SUMMARY_DIGITS = 4
+ROW_DIGITS = 6
+
+# The summary CSV files: (column, key of the field entry or specimen summary in the JSON
+# document, index into a [low, high] pair or None, factor). Column names carry the unit;
+# fractions are written in per cent (factor 100). Grains and particles columns differ, so a
+# study's one-row-per-specimen file holds both side by side.
+_GRAIN_FIELD_COLUMNS = [
+    ("pixel_size_um", "pixel_size_um", None, 1),
+    ("pixel_size_source", "pixel_size_source", None, 1),
+    ("mean_intercept_um", "mean_intercept_um", None, 1),
+    ("mean_intercept_ci95_low_um", "mean_intercept_ci95_um", 0, 1),
+    ("mean_intercept_ci95_high_um", "mean_intercept_ci95_um", 1, 1),
+    ("intercept_count", "intercept_count", None, 1),
+    ("astm_g", "astm_g_intercept", None, 1), ("astm_g_planimetric", "astm_g_planimetric", None, 1),
+    ("iso643_g_planimetric", "iso643_g_planimetric", None, 1),
+    ("grain_count", "grain_count", None, 1), ("grains_per_mm2", "grains_per_mm2", None, 1),
+    ("mean_grain_ecd_um", "mean_ecd_um", None, 1),
+    ("anisotropy_index", "anisotropy_index", None, 1),
+    ("twin_boundary_pct", "twin_boundary_fraction", None, 100),
+    ("duplex", "duplex", None, 1),
+    ("astm_g_largest_grain_ala", "astm_g_largest_grain_ala", None, 1),
+]
+_PARTICLE_FIELD_COLUMNS = [
+    ("pixel_size_um", "pixel_size_um", None, 1), ("field_area_um2", "field_area_um2", None, 1),
+    ("volume_fraction_pct", "volume_fraction", None, 100),
+    ("point_fraction_pct", "point_fraction", None, 100),
+    ("particle_count", "particle_count", None, 1),
+    ("particles_counted", "particles_counted", None, 1),
+    ("particles_per_um2", "particles_per_um2", None, 1),
+    ("mean_ecd_um", "mean_ecd_um", None, 1), ("mean_feret_max_um", "mean_feret_max_um", None, 1),
+    ("mean_aspect_ratio", "mean_aspect_ratio", None, 1),
+    ("mean_free_path_um", "mean_free_path_um", None, 1),
+    ("mean_nn_distance_um", "mean_nn_distance_um", None, 1),
+    ("mean_sphere_diameter_um", "mean_sphere_diameter_um", None, 1),
+    ("spheres_per_um3", "spheres_per_um3", None, 1),
+    ("method", "method", None, 1), ("phase", "phase", None, 1),
+    ("probably_wrong", "probably_wrong", None, 1),
+]
+
+
+def _with_ci(key: str, *, column: str | None = None, factor: float = 1) -> list:
+    """A specimen quantity of the summary, its field-to-field standard deviation, 95 % CI
+    (Student t) and % relative accuracy. The summary writes ``_um`` after the statistic
+    (``mean_ecd_sd_um``) and other units before it (``grains_per_mm2_sd``); the columns
+    keep that, with ``column`` naming a quantity written in other units (per cent)."""
+    if key.endswith("_um"):
+        stem = key[:-3]
+        sd, ci, ra = f"{stem}_sd_um", f"{stem}_ci95_um", f"{stem}_relative_accuracy_pct"
+    else:
+        sd, ci, ra = f"{key}_sd", f"{key}_ci95", f"{key}_relative_accuracy_pct"
+    col = column or key
+    if col.endswith("_um") or col.endswith("_pct"):
+        stem, unit = col.rsplit("_", 1)
+        names = [f"{stem}_sd_{unit}", f"{stem}_ci95_low_{unit}", f"{stem}_ci95_high_{unit}"]
+        rel = f"{stem}_relative_accuracy_pct"
+    else:
+        names = [f"{col}_sd", f"{col}_ci95_low", f"{col}_ci95_high"]
+        rel = f"{col}_relative_accuracy_pct"
+    return [(col, key, None, factor), (names[0], sd, None, factor), (names[1], ci, 0, factor),
+            (names[2], ci, 1, factor), (rel, ra, None, 1)]
+
+
+_GRAIN_SPECIMEN_COLUMNS = [
+    ("grain_fields", "n_fields", None, 1), ("grain_ci_basis", "ci_basis", None, 1),
+    *_with_ci("mean_intercept_um"),
+    ("astm_g", "astm_g", None, 1), ("astm_g_ci95_low", "astm_g_ci95", 0, 1),
+    ("astm_g_ci95_high", "astm_g_ci95", 1, 1),
+    *_with_ci("grains_per_mm2"),
+    ("astm_g_planimetric", "astm_g_planimetric", None, 1),
+    ("iso643_g_planimetric", "iso643_g_planimetric", None, 1),
+    ("grain_count", "grain_count_total", None, 1),
+    ("intercept_count", "intercept_count_total", None, 1),
+    ("duplex_fields", "duplex_fields", None, 1),
+    ("astm_g_largest_grain_ala", "astm_g_largest_grain_ala", None, 1),
+    ("twin_boundary_pct", "twin_boundary_fraction", None, 100),
+]
+_PARTICLE_SPECIMEN_COLUMNS = [
+    ("particle_fields", "n_fields", None, 1), ("particle_ci_basis", "basis", None, 1),
+    *_with_ci("volume_fraction", column="volume_fraction_pct", factor=100),
+    *_with_ci("particles_per_um2"),
+    *_with_ci("mean_ecd_um"),
+    *_with_ci("mean_free_path_um"),
+    *_with_ci("mean_nn_distance_um"),
+    *_with_ci("mean_sphere_diameter_um"),
+    ("spheres_per_um3", "spheres_per_um3", None, 1),
+    ("d10_um", "d10_um", None, 1), ("d50_um", "d50_um", None, 1), ("d90_um", "d90_um", None, 1),
+    ("particle_count", "particle_count", None, 1),
+    ("particles_counted", "particles_counted", None, 1),
+]
+_FIELD_COLUMNS = {"grains": _GRAIN_FIELD_COLUMNS, "particles": _PARTICLE_FIELD_COLUMNS}
+_SPECIMEN_COLUMNS = {"grains": _GRAIN_SPECIMEN_COLUMNS, "particles": _PARTICLE_SPECIMEN_COLUMNS}
 SIZE_DISTRIBUTION_PNG = "size_distribution.png"
 
 
@@ -440,10 +542,110 @@ def particles_document(records: Sequence[FieldRecord], *, calibration: Mapping,
                           area_um2=float(sum(r.result["field_area_um2"] for r in kept)))
 
 
-def write_result(folder: Path, part: ResultDocument) -> Path:
-    """Write ``<kind>.json``, ``<kind>.csv`` and (particles) the size-distribution figure
-    into ``folder``; the overlays are written where the fields are measured. Returns the
-    JSON file's path."""
+def _pick(d: Mapping, columns) -> dict:
+    row = {}
+    for col, key, index, factor in columns:
+        v = d.get(key)
+        if index is not None:
+            v = v[index] if isinstance(v, (list, tuple)) and len(v) > index else None
+        if factor != 1 and isinstance(v, (int, float)) and not isinstance(v, bool):
+            v = v * factor
+        row[col] = v
+    return row
+
+
+def image_name(image: str, base: str | os.PathLike | None) -> str:
+    """The name an image is shown under in the CSV files: relative to ``base`` (the output
+    folder of a single command), or as stored (a study's names are relative to the study
+    folder already)."""
+    if base is None:
+        return image
+    try:
+        return os.path.relpath(os.path.abspath(image), os.path.abspath(base))
+    except ValueError:  # another drive (Windows): no relative path exists
+        return image
+
+
+def field_summary_rows(part: ResultDocument, *, specimen: str = "",
+                       image_base: str | os.PathLike | None = None) -> list[dict]:
+    """One row per measured field of ``part``: the numbers of the report's field tables,
+    taken from the document's ``fields`` entries (same values, unit in each column name).
+
+    Grains: the per-field 95 % CI of the mean intercept is the one a single-field run of
+    that field reports (its sub-regions, :func:`sectio.grains.summarize_grains`).
+    """
+    import warnings
+
+    rows = []
+    for d in part.doc["fields"]:
+        d = dict(d)
+        if part.kind == "grains":
+            from .grains import summarize_grains
+
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")  # one field: the CI basis says so
+                d["mean_intercept_ci95_um"] = summarize_grains([d])["mean_intercept_ci95_um"]
+        flags = list(d.get("flags") or ()) + list(d.get("suspect_flags") or ())
+        rows.append({"specimen": specimen, "image": image_name(d["image"], image_base),
+                     **_pick(d, _FIELD_COLUMNS[part.kind]),
+                     "overlay_png": d.get("overlay_png"), "flags": sorted(set(flags))})
+    return rows
+
+
+def specimen_summary_row(part: ResultDocument, *, specimen: str = "") -> dict:
+    """The specimen-level values of ``part`` (its document's ``summary``) as one row: each
+    quantity with its field-to-field standard deviation, 95 % CI and relative accuracy."""
+    summary = part.doc["summary"]
+    prefix = "grain" if part.kind == "grains" else "particle"
+    return {"specimen": specimen, **_pick(summary, _SPECIMEN_COLUMNS[part.kind]),
+            f"{prefix}_fields_failed": len(part.doc.get("failed", ())),
+            f"{prefix}_flags": list(summary.get("flags") or ())}
+
+
+def study_field_rows(specimen: str, documents: Mapping) -> list[dict]:
+    """A study's ``fields.csv`` rows of one specimen: its grain fields, then its particle
+    fields (``documents`` maps ``grains`` / ``particles`` to a :class:`ResultDocument` or
+    None, as :func:`sectio.study.specimen_documents` returns)."""
+    rows = []
+    for kind in KINDS:
+        part = documents.get(kind)
+        if part is not None:
+            rows.extend({"specimen": r.pop("specimen"), "kind": kind, **r}
+                        for r in field_summary_rows(part, specimen=specimen))
+    return rows
+
+
+def study_specimen_row(specimen: str, documents: Mapping) -> dict:
+    """A study's ``specimens.csv`` row: grains, particles and the yield estimate (median
+    and 95 % interval, terms left out, flags) of one specimen side by side."""
+    row: dict = {"specimen": specimen}
+    for kind in KINDS:
+        part = documents.get(kind)
+        if part is not None:
+            row.update(specimen_summary_row(part, specimen=specimen))
+    st = documents.get("strength")
+    if st is not None:
+        lo, hi = st["yield_mpa"]["ci95"]
+        row.update({"yield_median_mpa": st["yield_mpa"]["median"], "yield_ci95_low_mpa": lo,
+                    "yield_ci95_high_mpa": hi,
+                    "strength_terms_missing": list(st["inputs"].get("terms", {})
+                                                   .get("missing", ())),
+                    "strength_flags": list(st.get("flags", ()))})
+    return row
+
+
+def write_result(folder: Path, part: ResultDocument, *, dialect: str = "comma",
+                 specimen: str | None = None,
+                 image_base: str | os.PathLike | None = None) -> Path:
+    """Write ``<kind>.json``, ``<kind>.csv`` (one row per grain or particle),
+    ``<kind>_fields.csv`` (one row per field), ``<kind>_specimen.csv`` (one row) and
+    (particles) the size-distribution figure into ``folder``; the overlays are written where
+    the fields are measured. Returns the JSON file's path.
+
+    ``dialect`` is a key of :data:`sectio.report.CSV_DIALECTS`; ``specimen`` names the row
+    of the specimen file (default: the folder's name); ``image_base`` the folder image names
+    are made relative to in the CSV files (see :func:`image_name`).
+    """
     from .report import write_csv, write_json
 
     if "size_distribution_png" in part.doc:
@@ -452,5 +654,13 @@ def write_result(folder: Path, part: ResultDocument) -> Path:
         write_size_distribution_png(folder / part.doc["size_distribution_png"], part.sizes,
                                     area_um2=part.area_um2, n_fields=len(part.records),
                                     summary=part.doc["summary"])
-    write_csv(folder / f"{part.kind}.csv", part.csv_rows(), columns=part.csv_columns)
+    specimen = Path(folder).name if specimen is None else specimen
+    rows = [{**r, "image": image_name(r["image"], image_base)} for r in part.csv_rows()]
+    write_csv(folder / f"{part.kind}.csv", rows, columns=part.csv_columns, dialect=dialect,
+              digits=ROW_DIGITS)
+    write_csv(folder / f"{part.kind}_fields.csv",
+              field_summary_rows(part, specimen=specimen, image_base=image_base),
+              dialect=dialect, digits=SUMMARY_DIGITS)
+    write_csv(folder / f"{part.kind}_specimen.csv", [specimen_summary_row(part, specimen=specimen)],
+              dialect=dialect, digits=SUMMARY_DIGITS)
     return write_json(folder / f"{part.kind}.json", part.doc)

@@ -20,6 +20,7 @@ import pytest
 
 from sectio.cli import main
 from sectio.report._safe import display_text, safe_stem
+from sectio.specimen import image_name
 from sectio.synth._render import write_calibrated_tiff
 from sectio.synth.grains import synthetic_grains
 
@@ -65,7 +66,8 @@ def test_hostile_names_in_every_output(hostile_files, tmp_path, capsys):
     assert any("caf\ufffd latin-1.tif" in i for i in images)
     assert any("<script>markup<script> & $\\alpha$.tif" in i for i in images)
     rows = list(csv.DictReader((out / "grains.csv").read_text(encoding="utf-8").splitlines()))
-    assert {r["image"] for r in rows} == set(images)
+    # the CSV names each image relative to the output folder (sectio.specimen.image_name)
+    assert {r["image"] for r in rows} == {image_name(i, out) for i in images}
 
 
 def test_safe_stem():

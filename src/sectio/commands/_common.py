@@ -47,3 +47,15 @@ def max_image_memory_option(f):
         help="Largest decoded image accepted, e.g. 4GiB [default: 1.5GiB of float pixels, "
              "or $SECTIO_MAX_IMAGE_MEMORY].")(f)
 
+
+
+def csv_dialect_option(f):
+    """``--csv-dialect``: delimiter and decimal mark of every CSV file a command writes."""
+    import click
+
+    return click.option(
+        "--csv-dialect", type=click.Choice(["comma", "semicolon"]), default="comma",
+        show_default=True,
+        help="CSV files: comma = ',' between values and '.' as decimal mark; semicolon = ';' "
+             "between values and ',' as decimal mark (spreadsheets in decimal-comma "
+             "locales).")(f)

@@ -14,7 +14,7 @@ import click
 
 from ..errors import OptionError
 from ._calibration import calibration_options
-from ._common import echo_skipped, max_image_memory_option, progress_bar
+from ._common import csv_dialect_option, echo_skipped, max_image_memory_option, progress_bar
 from ._common import fmt as _fmt
 
 
@@ -123,6 +123,7 @@ def _parse_angles(text: str) -> tuple[float, ...]:
     help="Folder for grains.json, grains.csv and the overlays.",
 )
 @max_image_memory_option
+@csv_dialect_option
 @calibration_options
 @click.pass_context
 def grains_command(
@@ -142,6 +143,7 @@ def grains_command(
     angles,
     subregions,
     out_dir,
+    csv_dialect,
     calibration_options,
 ):
     """Grain size by the mean lineal intercept and planimetric methods.
@@ -180,7 +182,7 @@ def grains_command(
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # one-field degeneracy is stated in ci_basis
         part = grains_document(records, calibration=calibration, options=opts, edits=True)
-    write_result(out, part)
+    write_result(out, part, dialect=csv_dialect, image_base=out)
     doc = part.doc
     print_table(doc["fields"], doc["summary"], doc["failed"])
     if doc["failed"]:

@@ -15,7 +15,7 @@ import click
 
 from ..errors import OptionError
 from ._calibration import calibration_options
-from ._common import echo_skipped, max_image_memory_option, progress_bar
+from ._common import csv_dialect_option, echo_skipped, max_image_memory_option, progress_bar
 from ._common import fmt as _fmt
 
 
@@ -51,11 +51,12 @@ from ._common import fmt as _fmt
 @click.option("--seed", type=int, default=0, show_default=True,
               help="Seed of the point-count grid offset and the bootstrap.")
 @max_image_memory_option
+@csv_dialect_option
 @calibration_options
 @click.pass_context
 def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, method,
                       threshold, min_size, no_split, foil_thickness, out_dir, seed,
-                      calibration_options):
+                      csv_dialect, calibration_options):
     """Particle area (= volume) fraction, sizes, spacing and sphere-size unfolding.
 
     Example:  sectio particles field*.tif --pixel-size 0.02um --phase bright --out results
@@ -85,7 +86,7 @@ def particles_command(ctx, images, pixel_size, scale_bar, crop_bottom, phase, me
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # single-field degeneracy is reported in "basis"
         part = particles_document(records, calibration=calibration, measure=measure, edits=True)
-    write_result(out, part)
+    write_result(out, part, dialect=csv_dialect, image_base=out)
     doc = part.doc
     _print_table(doc["fields"], doc["summary"], doc["failed"])
     suspect = [d for d in doc["fields"] if d.get("probably_wrong")]

@@ -11,7 +11,7 @@ import sys
 
 import click
 
-from ._common import max_image_memory_option
+from ._common import csv_dialect_option, max_image_memory_option
 
 
 @click.command("study", context_settings={"help_option_names": ["-h", "--help"]})
@@ -32,9 +32,11 @@ from ._common import max_image_memory_option
 @click.option("--checked-by", help="Name printed in the sign-off block as checker.")
 @click.option("--approved-by", help="Name printed in the sign-off block as approver.")
 @max_image_memory_option
+@csv_dialect_option
 @click.pass_context
 def study_command(ctx, study_file, out_dir, workers, scheduler, no_report, report_number,
-                  operator, report_date, laboratory, standards, checked_by, approved_by):
+                  operator, report_date, laboratory, standards, checked_by, approved_by,
+                  csv_dialect):
     """Measure every field of every specimen named in STUDY_FILE and write a report.
 
     Writes per specimen grains.json / particles.json / strength.json, then study.json,
@@ -65,7 +67,7 @@ def study_command(ctx, study_file, out_dir, workers, scheduler, no_report, repor
 
     try:
         run = run_study(study, out_dir, workers=workers, scheduler=scheduler,
-                        report=not no_report, progress=progress)
+                        report=not no_report, progress=progress, csv_dialect=csv_dialect)
     finally:
         bar = state["bar"]
         if bar is not None and bar.pos < bar.length:

@@ -103,10 +103,27 @@ def png_bytes(rgb: np.ndarray) -> bytes:
     return buf.getvalue()
 
 
+#: ``--csv-dialect`` choices: name -> (delimiter, decimal mark). ``comma`` is read by any
+#: program set to a decimal-point locale; ``semicolon`` by spreadsheets in decimal-comma
+#: locales (most of continental Europe, South America).
+CSV_DIALECTS = {"comma": (",", "."), "semicolon": (";", ",")}
+
+
 def write_csv(
-    path: str | os.PathLike, rows: list[dict], *, columns: list[str] | None = None
+    path: str | os.PathLike, rows: list[dict], *, columns: list[str] | None = None,
+    dialect: str = "comma", digits: int | None = None,
 ) -> Path:
-    """Write a list of flat dicts as CSV atomically (header from ``columns`` or the first row)."""
+    """Write a list of flat dicts as CSV atomically (header from ``columns`` or the first row).
+
+    ``dialect`` is a key of :data:`CSV_DIALECTS`; ``digits`` rounds every float to that many
+    significant figures (None: the shortest text that reads back as the same float).
+    """
+    from ..errors import OptionError
+
+    if dialect not in CSV_DIALECTS:
+        raise OptionError(f"--csv-dialect {dialect!r} is not known; choose "
+                          f"{' or '.join(CSV_DIALECTS)}.")
+    delimiter, decimal = CSV_DIALECTS[dialect]
     if columns is None:
         columns = []
         for row in rows:
@@ -114,19 +131,37 @@ def write_csv(
                 if k not in columns:
                     columns.append(k)
     buf = io.StringIO()
-    w = csv.DictWriter(buf, fieldnames=columns, extrasaction="ignore", lineterminator="\n")
+    w = csv.DictWriter(buf, fieldnames=columns, extrasaction="ignore", lineterminator="\n",
+                       delimiter=delimiter)
     w.writeheader()
     for row in rows:
-        w.writerow({k: _csv_value(row.get(k)) for k in columns})
+        w.writerow({k: _csv_value(row.get(k), digits, decimal) for k in columns})
     return atomic_write_text(path, buf.getvalue())
 
 
-def _csv_value(v):
+def round_significant(v: float, digits: int) -> float:
+    """``v`` rounded to ``digits`` significant figures (0, NaN and inf unchanged)."""
+    if v == 0 or not math.isfinite(v):
+        return v
+    return float(f"{v:.{digits}g}")
+
+
+def _csv_number(v: float, digits: int | None) -> str:
+    if digits is None:
+        return repr(v)
+    # positional notation (no exponent) unless the number is very large or very small
+    r = round_significant(v, digits)
+    if r != 0 and not 1e-6 <= abs(r) < 1e12:
+        return f"{r:.{digits - 1}e}"
+    return np.format_float_positional(r, trim="-")
+
+
+def _csv_value(v, digits: int | None = None, decimal: str = "."):
     v = jsonable(v)
     if v is None:
         return ""
     if isinstance(v, float):
-        return repr(v)
+        return _csv_number(v, digits).replace(".", decimal)
     if isinstance(v, list):
-        return ";".join(str(x) for x in v)
+        return ";".join(str(_csv_value(x, digits, decimal)) for x in v)
     return v

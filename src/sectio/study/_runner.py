@@ -20,9 +20,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .. import __version__
-from ..report import atomic_write_bytes, to_json_text, write_json
+from ..report import atomic_write_bytes, to_json_text, write_csv, write_json
 from ..report._safe import OutputError
-from ..specimen import write_result
+from ..specimen import SUMMARY_DIGITS, study_field_rows, study_specimen_row, write_result
 from ._assemble import STUDY_SCHEMA, specimen_documents, trend_points
 from ._studyfile import REPORT_KEYS, Study
 from ._work import RECORD_SCHEMA, FieldTask, field_key
@@ -147,7 +147,8 @@ def _roundtrip(record: dict) -> dict:
 
 def run_study(study: Study, out_dir: str | os.PathLike, *, workers: int | None = None,
               scheduler: str | None = None, scheduler_timeout_s: float = 20.0,
-              report: bool = True, progress: Callable[[int, int], None] | None = None) -> StudyRun:
+              report: bool = True, progress: Callable[[int, int], None] | None = None,
+              csv_dialect: str = "comma") -> StudyRun:
     """Measure every field of ``study`` (skipping finished ones) and write all outputs.
 
     Parameters
@@ -166,6 +167,9 @@ def run_study(study: Study, out_dir: str | os.PathLike, *, workers: int | None =
         Also write report.html and report.pdf.
     progress : callable(done, total), optional
         Called after each field that had to be computed.
+    csv_dialect : str
+        Delimiter and decimal mark of the CSV files, a key of
+        :data:`sectio.report.CSV_DIALECTS`.
     """
     from ..report._safe import prepare_out_dir
     from ._guard import clean_stale_temp, study_lock
@@ -175,11 +179,11 @@ def run_study(study: Study, out_dir: str | os.PathLike, *, workers: int | None =
         clean_stale_temp(out)  # what a killed run left behind
         return _run_locked(study, out, workers=workers, scheduler=scheduler,
                            scheduler_timeout_s=scheduler_timeout_s, report=report,
-                           progress=progress)
+                           progress=progress, csv_dialect=csv_dialect)
 
 
 def _run_locked(study: Study, out: Path, *, workers, scheduler, scheduler_timeout_s, report,
-                progress) -> StudyRun:
+                progress, csv_dialect="comma") -> StudyRun:
     from ._executors import dask_executor, local_executor, serial_executor
     from ._guard import TMP_NAME
 
@@ -252,7 +256,8 @@ def _run_locked(study: Study, out: Path, *, workers, scheduler, scheduler_timeou
             progress(done, len(todo))
     computed = done
     field_seconds = time.perf_counter() - t_fields
-    run = assemble(study, out, plan, {**records, **transient}, report=report)
+    run = assemble(study, out, plan, {**records, **transient}, report=report,
+                   csv_dialect=csv_dialect)
     run.computed, run.reused = computed, reused
     run.seconds = time.perf_counter() - t0
     run.field_seconds = field_seconds
@@ -281,8 +286,13 @@ def _with_image(record: dict, image: str) -> dict:
     return _replace_strings(record, old, image)
 
 
-def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = True) -> StudyRun:
-    """Write per-specimen documents, study.json and the report from the field records."""
+def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = True,
+             csv_dialect: str = "comma") -> StudyRun:
+    """Write per-specimen documents, study.json and the report from the field records.
+
+    Besides each specimen's files, ``fields.csv`` (one row per field of every specimen) and
+    ``specimens.csv`` (one row per specimen: grains, particles and strength side by side)
+    go into ``out``; image names in them are relative to the study folder."""
     fields_dir = out / "fields"
     by_spec: dict[str, dict[str, list]] = {}
     for pf in plan:
@@ -290,6 +300,7 @@ def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = Tru
         by_spec.setdefault(pf.specimen, {}).setdefault(pf.kind, []).append(
             _with_image(rec, pf.image))
     docs, spec_entries, failed = {}, [], []
+    field_rows, specimen_rows = [], []
     for spec in study.specimens:
         recs = by_spec.get(spec.name, {})
         try:
@@ -314,11 +325,13 @@ def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = Tru
             for name, rec in part.overlays.items():
                 src = fields_dir / f"{rec.key}.png"
                 atomic_write_bytes(sdir / name, src.read_bytes())
-            write_result(sdir, part)
+            write_result(sdir, part, dialect=csv_dialect, specimen=spec.name)
             files[kind] = f"{spec.name}/{kind}.json"
         if d["strength"] is not None:
             write_json(sdir / "strength.json", d["strength"])
             files["strength"] = f"{spec.name}/strength.json"
+        field_rows.extend(study_field_rows(spec.name, d))
+        specimen_rows.append(study_specimen_row(spec.name, d))
         fl = [{"specimen": spec.name, "kind": kind, "image": r["image"], "reason": r["reason"]}
               for kind, rs in recs.items() for r in rs if r["status"] != "ok"]
         failed.extend(fl)
@@ -353,6 +366,8 @@ def assemble(study: Study, out: Path, plan, records: dict, *, report: bool = Tru
         "failed": failed,
     }
     write_json(out / "study.json", doc)
+    write_csv(out / "fields.csv", field_rows, dialect=csv_dialect, digits=SUMMARY_DIGITS)
+    write_csv(out / "specimens.csv", specimen_rows, dialect=csv_dialect, digits=SUMMARY_DIGITS)
     if report:
         from ..report.html import report_data, write_html_report
         from ..report.pdf import write_pdf_report
