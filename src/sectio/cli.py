@@ -26,6 +26,11 @@ SUBCOMMANDS = {
         "particles_command",
         "Particle volume fraction, size distribution and spacing.",
     ),
+    "phases": (
+        "sectio.commands.phases",
+        "phases_command",
+        "Area (= volume) fraction of several grey-level phases, with an E562 point count.",
+    ),
     "strength": (
         "sectio.commands.strength",
         "strength_command",
