@@ -6,6 +6,11 @@ Three lines from a notebook::
     field = sectio.measure_grains(sectio.load("field1.tif", pixel_size="0.5um"))
     field.mean_intercept_um, field.astm_g_intercept; field.overlay()
 
+Results print as a few headline lines and show as small tables in a notebook; several
+fields give a specimen summary (``sectio.summarize_grains(fields)``,
+``sectio.summarize_particles``), summaries a yield estimate (``sectio.estimate_strength``,
+module ``sectio.strength``). ``docs/notebook_example.py`` walks through all of it.
+
 Heavy libraries (scikit-image, matplotlib) are imported lazily so that the command line
 starts quickly.
 """
@@ -25,6 +30,7 @@ __all__ = [
     "study",
     "summarize_grains",
     "summarize_particles",
+    "synth",
 ]
 
 # name -> (module, attribute or None for the module itself)
@@ -38,6 +44,7 @@ _LAZY = {
     "strength": (".strength", None),
     "stereology": (".stereology", None),
     "study": (".study", None),
+    "synth": (".synth", None),
 }
 
 

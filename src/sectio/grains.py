@@ -12,6 +12,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from ._display import Displayed, Summary
 from .errors import DegenerateDataWarning, OptionError
 from .micrograph import Micrograph
 from .segment import GrainSegmentation, GrainSegmentOptions, segment_grains
@@ -148,9 +149,12 @@ def make_options(
     )
 
 
-@dataclass(frozen=True)
-class GrainField:
-    """Grain size measured on one field (one micrograph)."""
+@dataclass(frozen=True, repr=False)
+class GrainField(Displayed):
+    """Grain size measured on one field (one micrograph).
+
+    Shown in a console or notebook as a few headline numbers (``repr``, ``_repr_html_``).
+    """
 
     micrograph: Micrograph
     labels: np.ndarray
@@ -214,6 +218,19 @@ class GrainField:
         with_ = self.counts_with_twins.mean_intercept_px
         without = self.counts_without_twins.mean_intercept_px
         return float(max(0.0, 1.0 - with_ / without)) if without > 0 else 0.0
+
+    def _display(self):
+        from ._display import num
+
+        return "grain-size field", [
+            ("image", self.micrograph.path),
+            ("pixel size", num(self.pixel_size_um, "µm")),
+            ("mean lineal intercept", num(self.mean_intercept_um, "µm")),
+            ("ASTM E112 G (intercept, planimetric)",
+             f"{num(self.astm_g_intercept)}, {num(self.astm_g_planimetric)}"),
+            ("grains", f"{self.grain_count} ({num(self.grains_per_mm2)} per mm²)"),
+            ("anisotropy index", num(self.anisotropy_index)),
+        ]
 
     def grain_table(self) -> list[dict]:
         """One row per grain: area, equivalent circle diameter, centroid, edge contact."""
@@ -477,4 +494,4 @@ def summarize_grains(fields: list[GrainField] | list[dict], *, target_pct: float
         out[key] = float(np.mean(vals)) if vals else None
     out["intercept_count_total"] = int(sum(d["intercept_count"] for d in dicts))
     out["grain_count_total"] = int(sum(d["grain_count"] for d in dicts))
-    return out
+    return Summary(out, kind="grains")

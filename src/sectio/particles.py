@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ._display import Displayed, Summary
 from .micrograph import Micrograph
 from .segment import (
     MOSTLY_PARTICLE,
@@ -62,9 +63,12 @@ EDGE_RGB = (255, 200, 0)
 SPLIT_RGB = (255, 40, 160)
 
 
-@dataclass(frozen=True)
-class ParticleField:
-    """Particle measurements of one field; lengths in µm, areas in µm²."""
+@dataclass(frozen=True, repr=False)
+class ParticleField(Displayed):
+    """Particle measurements of one field; lengths in µm, areas in µm².
+
+    Shown in a console or notebook as a few headline numbers (``repr``, ``_repr_html_``).
+    """
 
     micrograph: Micrograph
     segmentation: ParticleSegmentation
@@ -101,6 +105,20 @@ class ParticleField:
     @property
     def image(self) -> str:
         return self.micrograph.path
+
+    def _display(self):
+        from ._display import _flags, num
+
+        return "particle field", [
+            ("image", self.micrograph.path),
+            ("pixel size", num(self.micrograph.pixel_size_um, "µm")),
+            ("volume fraction (area)", num(100 * self.volume_fraction, "%")),
+            ("particles", f"{self.particle_count} ({self.particles_counted} whole; "
+                          f"{num(self.particles_per_um2)} per µm²)"),
+            ("mean ECD", num(self.mean_ecd_um, "µm")),
+            ("mean sphere diameter", num(self.mean_sphere_diameter_um, "µm")),
+            ("flags", _flags(self.flags)),
+        ]
 
     def whole_sections(self) -> tuple[np.ndarray, np.ndarray]:
         """ECD (µm) and Miles–Lantuéjoul weight of the particles not cut by the field edge."""
@@ -398,6 +416,6 @@ def summarize_particles(fields, *, bootstrap: int = 200, seed: int = 0) -> dict:
     from .stereology import summarize_particle_fields
 
     fields = list(fields)
-    return summarize_particle_fields(
+    return Summary(summarize_particle_fields(
         [f.to_dict() for f in fields], [f.options for f in fields],
-        [f.whole_sections() for f in fields], bootstrap=bootstrap, seed=seed)
+        [f.whole_sections() for f in fields], bootstrap=bootstrap, seed=seed), kind="particles")

@@ -17,6 +17,7 @@ import warnings
 from dataclasses import dataclass, fields
 from pathlib import Path
 
+from .._display import Displayed
 from ..errors import ExtrapolationWarning, OptionError
 from . import hall_petch as hp
 from .materials import Material, get_material
@@ -76,9 +77,13 @@ class StrengthOptions:
         return cls(**options)
 
 
-@dataclass(frozen=True)
-class YieldEstimate:
-    """Yield-strength estimate: median, 95 % interval, contributions, inputs and caution."""
+@dataclass(frozen=True, repr=False)
+class YieldEstimate(Displayed):
+    """Yield-strength estimate: median, 95 % interval, contributions, inputs and caution.
+
+    Shown in a console or notebook with its interval, the terms included and left out, its
+    flags, assumptions and caution (``repr``, ``_repr_html_``).
+    """
 
     yield_mpa: dict
     contributions_mpa: dict
@@ -98,6 +103,25 @@ class YieldEstimate:
     def yield_ci95_mpa(self) -> tuple[float, float]:
         lo, hi = self.yield_mpa["ci95"]
         return (lo, hi)
+
+    def _display(self):
+        from .._display import _flags, num
+
+        lo, hi = self.yield_ci95_mpa
+        terms = self.inputs.get("terms", {})
+        contrib = ", ".join(f"{k} {num(v['median'])}" for k, v in self.contributions_mpa.items()
+                            if isinstance(v, dict) and "median" in v)
+        material = self.inputs.get("material")
+        rows = [("yield strength", f"{num(self.median_mpa, 'MPa')} "
+                                   f"(95 % interval {num(lo)} – {num(hi)} MPa)"),
+                ("material", str(material.get("name", "-") if isinstance(material, dict)
+                                 else material)),
+                ("contributions (MPa, median)", contrib or "-"),
+                ("terms left out", ", ".join(terms.get("missing", ())) or "none"),
+                ("flags", _flags(self.flags)),
+                *((f"assumption {i}", a) for i, a in enumerate(self.assumptions, 1)),
+                ("caution", self.caution)]
+        return "yield-strength estimate", rows
 
     def to_dict(self) -> dict:
         """The ``sectio/strength@1`` JSON document (JSON-ready values)."""
